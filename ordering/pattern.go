@@ -1,0 +1,189 @@
+package ordering
+
+import (
+	"fmt"
+	"math"
+	"runtime"
+	"slices"
+
+	"golang.org/x/sync/errgroup"
+)
+
+// Settings configures the ordering and the pattern builders. The zero value means defaults.
+type Settings struct {
+	// Workers is the number of goroutines the pattern builders use; 0 means GOMAXPROCS.
+	// The result is bitwise identical for any value.
+	Workers int
+
+	// search selects the neighbour search; the zero value is the flat kd-tree.
+	search searchKind
+}
+
+func (s Settings) workers() int {
+	switch {
+	case s.Workers < 0:
+		panic(fmt.Sprintf("ordering: Workers = %d < 0", s.Workers))
+	case s.Workers == 0:
+		return runtime.GOMAXPROCS(0)
+	}
+	return s.Workers
+}
+
+// Pattern is a lower-triangular sparsity pattern in position order, compressed by column.
+type Pattern struct {
+	// ColStart has length N+1; column j's rows are Rows[ColStart[j]:ColStart[j+1]].
+	ColStart []int64
+	// Rows holds row positions (int32: N < 2³¹), strictly ascending within a column;
+	// the first row of column j is j itself (the diagonal).
+	Rows []int32
+}
+
+// N returns the number of columns.
+func (p *Pattern) N() int { return len(p.ColStart) - 1 }
+
+// NNZ returns the number of entries.
+func (p *Pattern) NNZ() int { return int(p.ColStart[len(p.ColStart)-1]) }
+
+// Col returns the rows of column j, ascending, starting with j. The slice aliases p.Rows.
+// Panics if j is out of range.
+func (p *Pattern) Col(j int) []int32 {
+	if j < 0 || j >= p.N() {
+		panic(fmt.Sprintf("ordering: column %d out of range [0, %d)", j, p.N()))
+	}
+	return p.Rows[p.ColStart[j]:p.ColStart[j+1]]
+}
+
+// Radius returns S_ρ with the default Settings. See Settings.Radius.
+func Radius(points []float64, d int, lengthScale []float64, rho float64) *Pattern {
+	return Settings{}.Radius(points, d, lengthScale, rho)
+}
+
+// Radius returns S_ρ = {(i,j): i ≥ j, dist(x_i,x_j) ≤ ρ·ℓ_j}. points are in POSITION order
+// (already permuted: point p is points[p*d:(p+1)*d]); lengthScale is Ordering.LengthScale.
+// A column with ℓ_j = +Inf takes all rows i ≥ j. rho = +Inf gives the full lower triangle.
+//
+// For a reverse maximin ordering the points at positions ≥ j are pairwise ≥ ℓ_j apart, so a
+// column with 0 < ℓ_j < ∞ has at most (2ρ+1)ᵈ entries and the cost is O(N (log N + (2ρ+1)ᵈ))
+// time on well-spread data (Schäfer, Katzfuss, Owhadi 2021). Columns are computed in parallel
+// by s.Workers goroutines. Panics if the points are malformed (see ReverseMaximin),
+// len(lengthScale) != N, an ℓ_j is negative or NaN, or rho is negative or NaN.
+func (s Settings) Radius(points []float64, d int, lengthScale []float64, rho float64) *Pattern {
+	n := checkPoints(points, d)
+	if len(lengthScale) != n {
+		panic(fmt.Sprintf("ordering: %d length scales for %d points", len(lengthScale), n))
+	}
+	for j, l := range lengthScale {
+		if !(l >= 0) {
+			panic(fmt.Sprintf("ordering: length scale %d is %v", j, l))
+		}
+	}
+	if !(rho >= 0) {
+		panic(fmt.Sprintf("ordering: rho = %v, want ≥ 0", rho))
+	}
+	workers := s.workers()
+	var trees *suffixTrees
+	if !math.IsInf(rho, 1) {
+		trees = newSuffixTrees(s.search, points, d, n, workers)
+	}
+	column := func(dst []int32, j int, w *searchWork) []int32 {
+		if trees == nil || math.IsInf(lengthScale[j], 1) {
+			for i := j; i < n; i++ {
+				dst = append(dst, int32(i))
+			}
+			return dst
+		}
+		start := len(dst)
+		dst = trees.covering(n-j).radius(dst, points[j*d:(j+1)*d], rho*lengthScale[j], int32(j), w)
+		slices.Sort(dst[start:])
+		return dst
+	}
+	return buildPattern(n, workers, column)
+}
+
+// NearestNeighbors returns the nearest-neighbour pattern with the default Settings. See
+// Settings.NearestNeighbors.
+func NearestNeighbors(points []float64, d int, m int) *Pattern {
+	return Settings{}.NearestNeighbors(points, d, m)
+}
+
+// NearestNeighbors returns the pattern whose column j is j plus its m nearest coarser points
+// (positions > j), ties in distance broken by lower position. Columns near the end have fewer.
+// points are in position order.
+//
+// Cost O(N m log N) time on well-spread data, O(N m) memory; columns are computed in parallel by
+// s.Workers goroutines. Panics if the points are malformed (see ReverseMaximin) or m < 0.
+func (s Settings) NearestNeighbors(points []float64, d int, m int) *Pattern {
+	n := checkPoints(points, d)
+	if m < 0 {
+		panic(fmt.Sprintf("ordering: m = %d < 0", m))
+	}
+	workers := s.workers()
+	trees := newSuffixTrees(s.search, points, d, n, workers)
+	column := func(dst []int32, j int, w *searchWork) []int32 {
+		dst = append(dst, int32(j))
+		if j == n-1 || m == 0 {
+			return dst
+		}
+		start := len(dst)
+		dst = trees.covering(n-1-j).knn(dst, points[j*d:(j+1)*d], m, int32(j+1), w)
+		slices.Sort(dst[start:])
+		return dst
+	}
+	return buildPattern(n, workers, column)
+}
+
+const (
+	// patternChunk is the number of consecutive columns one task computes. Fixed, so the
+	// split does not depend on the worker count.
+	patternChunk = 1024
+	// patternSerialBelow is the column count below which patterns are built on one goroutine.
+	patternSerialBelow = 4 * patternChunk
+)
+
+// buildPattern computes the n columns in chunks, in parallel, and concatenates them in order.
+// column appends column j's rows to dst using the workspace w.
+func buildPattern(n, workers int, column func(dst []int32, j int, w *searchWork) []int32) *Pattern {
+	chunks := (n + patternChunk - 1) / patternChunk
+	rows := make([][]int32, chunks)
+	colLen := make([]int32, n)
+	task := func(c int, w *searchWork) {
+		var buf []int32
+		for j := c * patternChunk; j < min(n, (c+1)*patternChunk); j++ {
+			before := len(buf)
+			buf = column(buf, j, w)
+			colLen[j] = int32(len(buf) - before)
+		}
+		rows[c] = buf
+	}
+	if n < patternSerialBelow || workers == 1 {
+		var w searchWork
+		for c := range chunks {
+			task(c, &w)
+		}
+	} else {
+		pool := make(chan *searchWork, workers)
+		for range workers {
+			pool <- new(searchWork)
+		}
+		var g errgroup.Group
+		g.SetLimit(workers)
+		for c := range chunks {
+			g.Go(func() error {
+				w := <-pool
+				task(c, w)
+				pool <- w
+				return nil
+			})
+		}
+		g.Wait()
+	}
+	p := &Pattern{ColStart: make([]int64, n+1)}
+	for j, l := range colLen {
+		p.ColStart[j+1] = p.ColStart[j] + int64(l)
+	}
+	p.Rows = make([]int32, 0, p.ColStart[n])
+	for _, r := range rows {
+		p.Rows = append(p.Rows, r...)
+	}
+	return p
+}

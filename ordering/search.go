@@ -1,0 +1,504 @@
+package ordering
+
+import (
+	"math"
+	"math/bits"
+	"slices"
+
+	"github.com/kyroy/kdtree"
+	"github.com/kyroy/kdtree/kdrange"
+	"golang.org/x/sync/errgroup"
+)
+
+// searcher answers neighbour queries over a fixed set of indexed points. Indices are those of
+// the caller's flat point array. Results are exact with respect to distance: membership and
+// order are decided by distance alone, ties by lower index; trees only ever prune
+// conservatively. A searcher is safe for concurrent queries with distinct workspaces.
+type searcher interface {
+	// knn appends to dst the indices of the k indexed points with index ≥ minIndex that are
+	// nearest to x, ordered by (distance, index) ascending; fewer if fewer are accepted.
+	knn(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32
+	// radius appends to dst, in unspecified order, the indices i ≥ minIndex of all indexed
+	// points with distance(x, xᵢ) ≤ r, and leaves their distances in w.distances, in the same
+	// order (w.distances[k] belongs to the k-th index appended by this call).
+	radius(dst []int32, x []float64, r float64, minIndex int32, w *searchWork) []int32
+}
+
+// searchKind selects the implementation behind searcher.
+type searchKind int
+
+const (
+	// searchFlat is the static kd-tree on flat arrays below: the default.
+	//
+	// MEASUREMENTS PENDING
+	searchFlat searchKind = iota
+	// searchKyroy wraps github.com/kyroy/kdtree. Kept selectable and tested.
+	searchKyroy
+)
+
+func (k searchKind) String() string {
+	switch k {
+	case searchFlat:
+		return "flat"
+	case searchKyroy:
+		return "kyroy"
+	}
+	return "unknown"
+}
+
+// newSearcher indexes the points with indices [lo, hi) of the flat array points.
+func newSearcher(kind searchKind, points []float64, d, lo, hi int) searcher {
+	switch kind {
+	case searchFlat:
+		return newFlatTree(points, d, lo, hi)
+	case searchKyroy:
+		return newKyroyTree(points, d, lo, hi)
+	}
+	panic("ordering: unknown search kind")
+}
+
+// searchWork is the scratch space of one querying goroutine. The zero value is ready to use;
+// buffers grow once and are reused, so steady-state queries allocate nothing.
+type searchWork struct {
+	stack      []int32
+	stackBound []float64
+	heapDist   []float64
+	heapIndex  []int32
+	candidates []neighbour
+	distances  []float64 // distances of the last radius query's results
+}
+
+type neighbour struct {
+	dist  float64
+	index int32
+}
+
+func compareNeighbour(a, b neighbour) int {
+	switch {
+	case a.dist < b.dist:
+		return -1
+	case a.dist > b.dist:
+		return 1
+	}
+	return int(a.index) - int(b.index)
+}
+
+// distance returns the Euclidean distance between a and b as √(Σₖ (aₖ − bₖ)²), summed in
+// coordinate order. The explicit conversion forbids fused multiply-add, so the value is the
+// same on every platform and in every caller. Cost O(d).
+func distance(a, b []float64) float64 {
+	return math.Sqrt(squaredDistance(a, b))
+}
+
+func squaredDistance(a, b []float64) float64 {
+	b = b[:len(a)]
+	var s float64
+	for k := range a {
+		t := a[k] - b[k]
+		s += float64(t * t)
+	}
+	return s
+}
+
+// pruneBound returns the squared-distance threshold above which a tree may discard a box when
+// the admitted distance is r. A box's computed squared lower bound never exceeds the computed
+// squared distance of a point inside it (rounding is monotone, see flatTree.lowerBound), so the
+// only slack needed is between √s ≤ r and s ≤ r², which differ by a few ulps; the absolute
+// term covers underflow.
+func pruneBound(r float64) float64 {
+	return r*r*(1+1e-9) + 1e-300
+}
+
+// flatTree is a static kd-tree stored in flat arrays: points are copied in tree order, nodes
+// split at the median of their widest coordinate, and every node keeps its tight bounding box
+// and the largest index below it (so queries with minIndex skip whole subtrees).
+// Build O(n log n); queries visit O(log n + output) nodes on well-spread data.
+type flatTree struct {
+	d      int
+	coords []float64 // coords[s*d:(s+1)*d] is the point in tree slot s
+	index  []int32   // index[s] is the caller's index of the point in tree slot s
+	nodes  []flatNode
+	boxes  []float64 // node b's box: lows at boxes[2db:2db+d], highs at boxes[2db+d:2db+2d]
+}
+
+type flatNode struct {
+	start, end  int32 // tree slots [start, end)
+	left, right int32 // children, -1 for a leaf
+	maxIndex    int32
+}
+
+const flatLeafSize = 32
+
+var _ searcher = (*flatTree)(nil)
+
+func newFlatTree(points []float64, d, lo, hi int) *flatTree {
+	n := hi - lo
+	t := &flatTree{d: d}
+	perm := make([]int32, n)
+	for s := range perm {
+		perm[s] = int32(lo + s)
+	}
+	if n > 0 {
+		t.nodes = make([]flatNode, 0, 2*(n/flatLeafSize+1))
+		t.boxes = make([]float64, 0, 2*d*cap(t.nodes))
+		t.build(points, perm, 0, n)
+	}
+	t.coords = make([]float64, n*d)
+	for s, i := range perm {
+		copy(t.coords[s*d:(s+1)*d], points[int(i)*d:int(i+1)*d])
+	}
+	t.index = perm
+	return t
+}
+
+// build adds the node for perm[start:end] and its subtree, returning its id.
+func (t *flatTree) build(points []float64, perm []int32, start, end int) int32 {
+	d := t.d
+	id := int32(len(t.nodes))
+	t.nodes = append(t.nodes, flatNode{start: int32(start), end: int32(end), left: -1, right: -1})
+	b := len(t.boxes)
+	t.boxes = slices.Grow(t.boxes, 2*d)[:b+2*d]
+	low, high := t.boxes[b:b+d], t.boxes[b+d:b+2*d]
+	first := points[int(perm[start])*d:]
+	copy(low, first[:d])
+	copy(high, first[:d])
+	maxIndex := perm[start]
+	for _, i := range perm[start+1 : end] {
+		p := points[int(i)*d : int(i+1)*d]
+		for k, v := range p {
+			low[k] = min(low[k], v)
+			high[k] = max(high[k], v)
+		}
+		maxIndex = max(maxIndex, i)
+	}
+	t.nodes[id].maxIndex = maxIndex
+	if end-start <= flatLeafSize {
+		return id
+	}
+	dim, width := 0, high[0]-low[0]
+	for k := 1; k < d; k++ {
+		if w := high[k] - low[k]; w > width {
+			dim, width = k, w
+		}
+	}
+	if width == 0 { // all points equal: a leaf of duplicates
+		return id
+	}
+	mid := (start + end) / 2
+	selectNth(perm[start:end], mid-start, points, d, dim)
+	left := t.build(points, perm, start, mid)
+	right := t.build(points, perm, mid, end)
+	t.nodes[id].left, t.nodes[id].right = left, right
+	return id
+}
+
+// selectNth reorders perm so that the point at perm[k] has the k-th smallest coordinate dim,
+// with no larger coordinate before it and no smaller after it. Three-way quickselect with a
+// median-of-three pivot, so runs of equal coordinates (lattices) cost O(n).
+func selectNth(perm []int32, k int, points []float64, d, dim int) {
+	key := func(s int) float64 { return points[int(perm[s])*d+dim] }
+	lo, hi := 0, len(perm)
+	for hi-lo > 1 {
+		a, b, c := key(lo), key((lo+hi)/2), key(hi-1)
+		pivot := max(min(a, b), min(max(a, b), c))
+		lt, i, gt := lo, lo, hi
+		for i < gt {
+			switch v := key(i); {
+			case v < pivot:
+				perm[lt], perm[i] = perm[i], perm[lt]
+				lt++
+				i++
+			case v > pivot:
+				gt--
+				perm[i], perm[gt] = perm[gt], perm[i]
+			default:
+				i++
+			}
+		}
+		switch {
+		case k < lt:
+			hi = lt
+		case k >= gt:
+			lo = gt
+		default:
+			return
+		}
+	}
+}
+
+// lowerBound returns the squared distance from x to node b's box, computed so that it never
+// exceeds squaredDistance(x, p) for any p in the box: each gap is a rounded difference with the
+// same second operand and a first operand nearer to x, squared and summed in the same order.
+func (t *flatTree) lowerBound(b int32, x []float64) float64 {
+	d := t.d
+	box := t.boxes[2*d*int(b) : 2*d*int(b+1)]
+	low, high := box[:d], box[d:]
+	var s float64
+	for k, v := range x[:d] {
+		var g float64
+		if v < low[k] {
+			g = low[k] - v
+		} else if v > high[k] {
+			g = v - high[k]
+		}
+		s += float64(g * g)
+	}
+	return s
+}
+
+func (t *flatTree) knn(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32 {
+	if k <= 0 || len(t.nodes) == 0 || t.nodes[0].maxIndex < minIndex {
+		return dst
+	}
+	d := t.d
+	hd, hi := w.heapDist[:0], w.heapIndex[:0]
+	bound := math.Inf(1)
+	stack, stackBound := append(w.stack[:0], 0), append(w.stackBound[:0], t.lowerBound(0, x))
+	for len(stack) > 0 {
+		b, lb := stack[len(stack)-1], stackBound[len(stack)-1]
+		stack, stackBound = stack[:len(stack)-1], stackBound[:len(stack)-1]
+		node := t.nodes[b]
+		if lb > bound || node.maxIndex < minIndex {
+			continue
+		}
+		if node.left < 0 {
+			for s := node.start; s < node.end; s++ {
+				idx := t.index[s]
+				if idx < minIndex {
+					continue
+				}
+				sq := squaredDistance(x, t.coords[int(s)*d:])
+				if sq > bound {
+					continue
+				}
+				dist := math.Sqrt(sq)
+				if len(hd) < k {
+					hd, hi = append(hd, dist), append(hi, idx)
+					neighbourUp(hd, hi, len(hd)-1)
+					if len(hd) == k {
+						bound = pruneBound(hd[0])
+					}
+				} else if dist < hd[0] || (dist == hd[0] && idx < hi[0]) {
+					hd[0], hi[0] = dist, idx
+					neighbourDown(hd, hi, 0)
+					bound = pruneBound(hd[0])
+				}
+			}
+			continue
+		}
+		ll, lr := t.lowerBound(node.left, x), t.lowerBound(node.right, x)
+		near, far, lnear, lfar := node.left, node.right, ll, lr
+		if lr < ll {
+			near, far, lnear, lfar = node.right, node.left, lr, ll
+		}
+		if lfar <= bound {
+			stack, stackBound = append(stack, far), append(stackBound, lfar)
+		}
+		if lnear <= bound {
+			stack, stackBound = append(stack, near), append(stackBound, lnear)
+		}
+	}
+	// Heap sort: repeatedly move the largest to the end.
+	for e := len(hd) - 1; e > 0; e-- {
+		hd[0], hd[e] = hd[e], hd[0]
+		hi[0], hi[e] = hi[e], hi[0]
+		neighbourDown(hd[:e], hi[:e], 0)
+	}
+	dst = append(dst, hi...)
+	w.heapDist, w.heapIndex, w.stack, w.stackBound = hd, hi, stack, stackBound
+	return dst
+}
+
+// neighbourAbove reports whether entry a orders after entry b by (distance, index): the
+// bounded max-heap of knn keeps the worst of the k best at its root.
+func neighbourAbove(hd []float64, hi []int32, a, b int) bool {
+	return hd[a] > hd[b] || (hd[a] == hd[b] && hi[a] > hi[b])
+}
+
+func neighbourUp(hd []float64, hi []int32, c int) {
+	for c > 0 {
+		p := (c - 1) / 2
+		if !neighbourAbove(hd, hi, c, p) {
+			return
+		}
+		hd[c], hd[p] = hd[p], hd[c]
+		hi[c], hi[p] = hi[p], hi[c]
+		c = p
+	}
+}
+
+func neighbourDown(hd []float64, hi []int32, p int) {
+	n := len(hd)
+	for {
+		c := 2*p + 1
+		if c >= n {
+			return
+		}
+		if c+1 < n && neighbourAbove(hd, hi, c+1, c) {
+			c++
+		}
+		if !neighbourAbove(hd, hi, c, p) {
+			return
+		}
+		hd[c], hd[p] = hd[p], hd[c]
+		hi[c], hi[p] = hi[p], hi[c]
+		p = c
+	}
+}
+
+func (t *flatTree) radius(dst []int32, x []float64, r float64, minIndex int32, w *searchWork) []int32 {
+	if len(t.nodes) == 0 {
+		w.distances = w.distances[:0]
+		return dst
+	}
+	d := t.d
+	bound := pruneBound(r)
+	found := w.distances[:0]
+	stack := append(w.stack[:0], 0)
+	for len(stack) > 0 {
+		b := stack[len(stack)-1]
+		stack = stack[:len(stack)-1]
+		node := t.nodes[b]
+		if node.maxIndex < minIndex || t.lowerBound(b, x) > bound {
+			continue
+		}
+		if node.left >= 0 {
+			stack = append(stack, node.right, node.left)
+			continue
+		}
+		for s := node.start; s < node.end; s++ {
+			idx := t.index[s]
+			if idx < minIndex {
+				continue
+			}
+			if sq := squaredDistance(x, t.coords[int(s)*d:]); sq <= bound {
+				if dist := math.Sqrt(sq); dist <= r {
+					dst = append(dst, idx)
+					found = append(found, dist)
+				}
+			}
+		}
+	}
+	w.stack, w.distances = stack, found
+	return dst
+}
+
+// kyroyTree answers queries with github.com/kyroy/kdtree. That tree measures distance its own
+// way and its k-nearest search is not index-aware, so the wrapper uses it only to find
+// candidates and decides membership and order with distance, like flatTree.
+type kyroyTree struct {
+	d      int
+	points []float64
+	n      int
+	tree   *kdtree.KDTree
+}
+
+type kyroyPoint struct {
+	coords []float64
+	index  int32
+}
+
+func (p *kyroyPoint) Dimensions() int         { return len(p.coords) }
+func (p *kyroyPoint) Dimension(i int) float64 { return p.coords[i] }
+
+var _ searcher = (*kyroyTree)(nil)
+
+func newKyroyTree(points []float64, d, lo, hi int) *kyroyTree {
+	list := make([]kdtree.Point, hi-lo)
+	for s := range list {
+		i := lo + s
+		list[s] = &kyroyPoint{coords: points[i*d : (i+1)*d], index: int32(i)}
+	}
+	return &kyroyTree{d: d, points: points, n: hi - lo, tree: kdtree.New(list)}
+}
+
+func (t *kyroyTree) radius(dst []int32, x []float64, r float64, minIndex int32, w *searchWork) []int32 {
+	w.distances = w.distances[:0]
+	if t.n == 0 {
+		return dst
+	}
+	box := make(kdrange.Range, t.d)
+	for k, v := range x[:t.d] {
+		// Slack relative to r and to the coordinate's magnitude, so every point at distance ≤ r
+		// is inside the box whatever the rounding; extra candidates are filtered below.
+		s := r*(1+1e-9) + 1e-15*math.Abs(v) + 1e-300
+		box[k] = [2]float64{v - s, v + s}
+	}
+	for _, p := range t.tree.RangeSearch(box) {
+		q := p.(*kyroyPoint)
+		if dist := distance(x, q.coords); q.index >= minIndex && dist <= r {
+			dst = append(dst, q.index)
+			w.distances = append(w.distances, dist)
+		}
+	}
+	return dst
+}
+
+func (t *kyroyTree) knn(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32 {
+	if k <= 0 || t.n == 0 {
+		return dst
+	}
+	query := &kyroyPoint{coords: x[:t.d]}
+	cand := w.candidates[:0]
+	for ask := 2*k + 1; ; ask *= 2 {
+		cand = cand[:0]
+		got := t.tree.KNN(query, ask)
+		for _, p := range got {
+			q := p.(*kyroyPoint)
+			if q.index >= minIndex {
+				cand = append(cand, neighbour{distance(x, q.coords), q.index})
+			}
+		}
+		if len(cand) >= k || len(got) < ask || ask >= t.n {
+			break
+		}
+	}
+	slices.SortFunc(cand, compareNeighbour)
+	if len(cand) >= k {
+		// k accepted points lie within cand[k-1].dist, so the true k nearest do too: collect
+		// every accepted point in that ball and decide exactly.
+		var inBall []int32
+		inBall = t.radius(inBall, x, cand[k-1].dist, minIndex, w)
+		cand = cand[:0]
+		for s, i := range inBall {
+			cand = append(cand, neighbour{w.distances[s], i})
+		}
+		slices.SortFunc(cand, compareNeighbour)
+		cand = cand[:k]
+	}
+	for _, c := range cand {
+		dst = append(dst, c.index)
+	}
+	w.candidates = cand
+	return dst
+}
+
+// suffixTrees indexes the position suffixes [max(0, n−2ᵏ), n) for k = 0, 1, …, ⌈log₂ n⌉, so
+// that a query over the positions ≥ j can use a tree holding fewer than twice as many points
+// as it needs (Schäfer, Sullivan, Owhadi 2021 restrict searches to coarser points likewise).
+// Build O(n log n) in total.
+type suffixTrees struct {
+	trees []searcher
+}
+
+func newSuffixTrees(kind searchKind, points []float64, d, n, workers int) *suffixTrees {
+	if n == 0 {
+		return &suffixTrees{}
+	}
+	s := &suffixTrees{trees: make([]searcher, bits.Len(uint(n-1))+1)}
+	var g errgroup.Group
+	g.SetLimit(workers)
+	for k := range s.trees {
+		g.Go(func() error {
+			s.trees[k] = newSearcher(kind, points, d, max(0, n-1<<k), n)
+			return nil
+		})
+	}
+	g.Wait()
+	return s
+}
+
+// covering returns the smallest tree holding the last count ≥ 1 positions.
+func (s *suffixTrees) covering(count int) searcher {
+	return s.trees[bits.Len(uint(count-1))]
+}

@@ -1,0 +1,233 @@
+package ordering
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"testing"
+)
+
+// searchKinds lists every searcher implementation; each test runs on all of them.
+var searchKinds = []searchKind{searchFlat, searchKyroy}
+
+// plainDistance is the package's stated definition of distance (see doc.go), written out
+// independently: √(Σₖ (aₖ − bₖ)²) summed in coordinate order. The brute-force references use
+// it so that exact ties are compared exactly.
+func plainDistance(a, b []float64) float64 {
+	sum := 0.0
+	for k := range a {
+		diff := a[k] - b[k]
+		sum += float64(diff * diff)
+	}
+	return math.Sqrt(sum)
+}
+
+type pointSet struct {
+	name   string
+	d      int
+	points []float64
+}
+
+// uniformPoints returns n points uniform on the unit cube [0,1)ᵈ.
+func uniformPoints(rng *rand.Rand, n, d int) []float64 {
+	p := make([]float64, n*d)
+	for i := range p {
+		p[i] = rng.Float64()
+	}
+	return p
+}
+
+// clusteredPoints returns n points from five Gaussian blobs of standard deviation 0.03 with
+// centres uniform on [0,1)ᵈ: strongly non-uniform density.
+func clusteredPoints(rng *rand.Rand, n, d int) []float64 {
+	centres := uniformPoints(rng, 5, d)
+	p := make([]float64, n*d)
+	for i := range n {
+		c := rng.IntN(5)
+		for k := range d {
+			p[i*d+k] = centres[c*d+k] + 0.03*rng.NormFloat64()
+		}
+	}
+	return p
+}
+
+// latticePoints returns the first n points of the integer lattice {0,…,side−1}ᵈ with
+// sideᵈ ≥ n, in lexicographic order: many exact distance ties.
+func latticePoints(n, d int) []float64 {
+	side := 1
+	for math.Pow(float64(side), float64(d)) < float64(n) {
+		side++
+	}
+	p := make([]float64, 0, n*d)
+	for i := range n {
+		r := i
+		for range d {
+			p = append(p, float64(r%side))
+			r /= side
+		}
+	}
+	return p
+}
+
+// testPointSets returns uniform, clustered and lattice sets of n points in d dimensions.
+func testPointSets(n, d int) []pointSet {
+	rng := rand.New(rand.NewPCG(1, 1))
+	return []pointSet{
+		{"uniform", d, uniformPoints(rng, n, d)},
+		{"clustered", d, clusteredPoints(rng, n, d)},
+		{"lattice", d, latticePoints(n, d)},
+	}
+}
+
+// bruteKNN is the O(n·k) definition of searcher.knn over indices [lo, hi): scan every
+// accepted point, keep the k best by (distance, index) in a sorted list.
+func bruteKNN(points []float64, d, lo, hi int, x []float64, k int, minIndex int) []int32 {
+	var best []neighbour
+	if k <= 0 {
+		return nil
+	}
+	for i := max(lo, minIndex); i < hi; i++ {
+		c := neighbour{plainDistance(x, points[i*d:(i+1)*d]), int32(i)}
+		// Indices increase, so a candidate at an equal distance ranks after those kept.
+		if len(best) == k && c.dist >= best[k-1].dist {
+			continue
+		}
+		at := len(best)
+		for at > 0 && best[at-1].dist > c.dist {
+			at--
+		}
+		best = slices.Insert(best, at, c)
+		if len(best) > k {
+			best = best[:k]
+		}
+	}
+	var out []int32
+	for _, e := range best {
+		out = append(out, e.index)
+	}
+	return out
+}
+
+// bruteRadius is the O(n) definition of searcher.radius over indices [lo, hi), ascending.
+func bruteRadius(points []float64, d, lo, hi int, x []float64, r float64, minIndex int) []int32 {
+	var out []int32
+	for i := max(lo, minIndex); i < hi; i++ {
+		if plainDistance(x, points[i*d:(i+1)*d]) <= r {
+			out = append(out, int32(i))
+		}
+	}
+	return out
+}
+
+func TestSearcherAgainstBruteForce(t *testing.T) {
+	n := 600
+	if testing.Short() {
+		n = 200
+	}
+	for _, kind := range searchKinds {
+		for _, d := range []int{1, 2, 3} {
+			for _, set := range testPointSets(n, d) {
+				// Index a middle range so that indices outside it must never appear.
+				lo, hi := n/10, n
+				tree := newSearcher(kind, set.points, d, lo, hi)
+				rng := rand.New(rand.NewPCG(1, 1))
+				var w searchWork
+				for q := range 40 {
+					// Queries at indexed points (exact ties on lattices) and at random places.
+					var x []float64
+					if q%2 == 0 {
+						i := lo + rng.IntN(hi-lo)
+						x = set.points[i*d : (i+1)*d]
+					} else {
+						x = set.points[rng.IntN(n)*d:][:d]
+						x = append([]float64(nil), x...)
+						x[0] += 0.5 * rng.Float64()
+					}
+					minIndex := []int{0, lo, n / 2, n - 1, n}[q%5]
+					for _, k := range []int{1, 5, 30, n + 1} {
+						name := fmt.Sprintf("search=%v/d=%d/set=%s/query=%d/minIndex=%d/k=%d", kind, d, set.name, q, minIndex, k)
+						got := tree.knn(nil, x, k, int32(minIndex), &w)
+						want := bruteKNN(set.points, d, lo, hi, x, k, minIndex)
+						// Reference: the O(n) definition, ties by lower index.
+						if !slices.Equal(got, want) {
+							t.Errorf("%s: knn = %v, want %v", name, got, want)
+						}
+					}
+					// Radii: 0 (duplicates only), lattice spacings 1 and √2 (exact ties), and
+					// distances to points of the set (ties at the boundary of the ball).
+					radii := []float64{0, 1, math.Sqrt2, 0.05, plainDistance(x, set.points[rng.IntN(n)*d:][:d]), math.Inf(1)}
+					for _, r := range radii {
+						name := fmt.Sprintf("search=%v/d=%d/set=%s/query=%d/minIndex=%d/r=%g", kind, d, set.name, q, minIndex, r)
+						got := tree.radius(nil, x, r, int32(minIndex), &w)
+						slices.Sort(got)
+						want := bruteRadius(set.points, d, lo, hi, x, r, minIndex)
+						if !slices.Equal(got, want) {
+							t.Errorf("%s: radius = %v, want %v", name, got, want)
+						}
+					}
+				}
+			}
+		}
+	}
+}
+
+func TestSearcherEmptyAndDuplicates(t *testing.T) {
+	for _, kind := range searchKinds {
+		var w searchWork
+		empty := newSearcher(kind, nil, 2, 0, 0)
+		if got := empty.knn(nil, []float64{0, 0}, 3, 0, &w); len(got) != 0 {
+			t.Errorf("search=%v: knn on empty tree = %v", kind, got)
+		}
+		if got := empty.radius(nil, []float64{0, 0}, 1, 0, &w); len(got) != 0 {
+			t.Errorf("search=%v: radius on empty tree = %v", kind, got)
+		}
+		// 50 copies of one point: the tree must hold them in one leaf without splitting forever.
+		same := make([]float64, 100)
+		for i := range same {
+			same[i] = 0.25
+		}
+		tree := newSearcher(kind, same, 2, 0, 50)
+		got := tree.knn(nil, []float64{0.25, 0.25}, 3, 10, &w)
+		if want := []int32{10, 11, 12}; !slices.Equal(got, want) {
+			t.Errorf("search=%v: knn among duplicates = %v, want %v (ties by lower index)", kind, got, want)
+		}
+		got = tree.radius(nil, []float64{0.25, 0.25}, 0, 0, &w)
+		if len(got) != 50 {
+			t.Errorf("search=%v: radius 0 among 50 duplicates found %d", kind, len(got))
+		}
+	}
+}
+
+func TestFlatTreeQueriesDoNotAllocate(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 1))
+	points := uniformPoints(rng, 5000, 2)
+	tree := newFlatTree(points, 2, 0, 5000)
+	var w searchWork
+	dst := make([]int32, 0, 5000)
+	x := []float64{0.5, 0.5}
+	query := func() {
+		dst = tree.knn(dst[:0], x, 30, 100, &w)
+		dst = tree.radius(dst[:0], x, 0.1, 100, &w)
+	}
+	query() // grow the workspace once
+	// STYLE.md §6: hot loops allocate nothing once each worker's workspace is sized.
+	if allocs := testing.AllocsPerRun(100, query); allocs != 0 {
+		t.Errorf("flatTree queries allocate %v times per run, want 0", allocs)
+	}
+}
+
+func TestSuffixTreesCovering(t *testing.T) {
+	points := latticePoints(37, 1)
+	s := newSuffixTrees(searchFlat, points, 1, 37, 2)
+	var w searchWork
+	for count := 1; count <= 37; count++ {
+		// The covering tree must hold every position ≥ 37−count and fewer than 2·count points
+		// (the suffixes have sizes 2ᵏ, clipped to n).
+		all := s.covering(count).radius(nil, []float64{0}, math.Inf(1), 0, &w)
+		slices.Sort(all)
+		if all[len(all)-1] != 36 || len(all) != 37-int(all[0]) || int(all[0]) > 37-count || len(all) >= 2*count && len(all) != 37 {
+			t.Errorf("count=%d: covering tree holds positions %d..%d (%d points)", count, all[0], all[len(all)-1], len(all))
+		}
+	}
+}
