@@ -44,8 +44,9 @@ func denseCholesky(t testing.TB, theta *mat.SymDense) *mat.Cholesky {
 func denseL(f *Factor) *mat.Dense {
 	m := mat.NewDense(f.n, f.n, nil)
 	for j := range f.n {
-		for k := f.colStart[j]; k < f.colStart[j+1]; k++ {
-			m.Set(f.order[f.rows[k]], f.order[j], f.values[k])
+		rows, vals := f.col(j)
+		for k, r := range rows {
+			m.Set(f.order[r], f.order[j], vals[k])
 		}
 	}
 	return m
@@ -57,14 +58,14 @@ func denseL(f *Factor) *mat.Dense {
 func klDivergence(f *Factor, theta *mat.SymDense, logDetTheta float64) (kl, trace float64) {
 	// tr(LᵀΘL) = Σ_j L_{:,j}ᵀ Θ L_{:,j}, using the sparse columns.
 	for j := range f.n {
-		lo, hi := f.colStart[j], f.colStart[j+1]
-		for a := lo; a < hi; a++ {
-			ia := f.order[f.rows[a]]
+		rows, vals := f.col(j)
+		for a, ra := range rows {
+			ia := f.order[ra]
 			var s float64
-			for b := lo; b < hi; b++ {
-				s += theta.At(ia, f.order[f.rows[b]]) * f.values[b]
+			for b, rb := range rows {
+				s += theta.At(ia, f.order[rb]) * vals[b]
 			}
-			trace += f.values[a] * s
+			trace += vals[a] * s
 		}
 	}
 	return 0.5 * (trace - float64(f.n) - logDetTheta + f.LogDet()), trace

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"runtime"
+	"slices"
 	"sync/atomic"
 	"time"
 
@@ -31,6 +32,11 @@ type Settings struct {
 	// Neighbors is m for the nearest-neighbour pattern (used when Rho is 0). 0 means
 	// DefaultNeighbors.
 	Neighbors int
+	// Lambda is the supernode aggregation parameter λ (DESIGN.md §3): columns whose length
+	// scales are within a factor λ of a column that contains them share one row set and one
+	// dense factorisation. 0 means ordering.DefaultLambda (1.5); any value ≤ 1, such as 1,
+	// means no aggregation.
+	Lambda float64
 	// Workers is the number of goroutines computing columns. 0 means GOMAXPROCS.
 	Workers int
 }
@@ -49,12 +55,15 @@ func (s *Settings) withDefaults() Settings {
 	if out.Workers <= 0 {
 		out.Workers = runtime.GOMAXPROCS(0)
 	}
+	if out.Lambda == 0 {
+		out.Lambda = ordering.DefaultLambda
+	}
 	return out
 }
 
 // Timings records the wall-clock time of each phase of New.
 type Timings struct {
-	Ordering, Pattern, Factor time.Duration
+	Ordering, Pattern, Aggregation, Factor time.Duration
 }
 
 // Factor is a sparse lower-triangular L in the reverse maximin positions with
@@ -71,14 +80,24 @@ type Factor struct {
 	// lengthScale[p] is the maximin length scale of position p.
 	lengthScale []float64
 
-	// rho and neighbors describe the pattern (exactly one is non-zero).
+	// rho and neighbors describe the pattern (at most one is non-zero); lambda is the
+	// aggregation parameter (≤ 1: none).
 	rho       float64
 	neighbors int
+	lambda    float64
 
-	// Column j of L has rows rows[colStart[j]:colStart[j+1]] (ascending positions, the first
-	// being j) and values values[colStart[j]:colStart[j+1]].
+	// Supernode s has the columns members[memberStart[s]:memberStart[s+1]] (ascending) and
+	// the row set rows[superRowStart[s]:superRowStart[s+1]] (ascending), stored once.
+	memberStart   []int64
+	members       []int32
+	superRowStart []int64
+	rows          []int32
+
+	// Column j of L has the values values[colStart[j]:colStart[j+1]] on the rows
+	// rows[rowStart[j]:rowStart[j]+colStart[j+1]-colStart[j]]: the part of its supernode's
+	// row set that is ≥ j, so the first row is j itself.
 	colStart []int64
-	rows     []int32
+	rowStart []int64
 	values   []float64
 
 	// jittered counts the columns whose local block needed a diagonal jitter.
@@ -146,7 +165,8 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 
 // NewFromPattern computes the KL-optimal factor on a given ordering and pattern. points are in
 // the user's order; pat is in the positions of ord (as ordering.Radius and
-// ordering.NearestNeighbors build it). Only s.Workers is used from s. Errors and cost as New.
+// ordering.NearestNeighbors build it). s.Workers and s.Lambda are used from s (aggregation
+// applies to the given pattern). Errors and cost as New.
 func NewFromPattern(ctx context.Context, points []float64, d int, k kernels.Kernel, ord ordering.Ordering, pat *ordering.Pattern, s *Settings) (*Factor, error) {
 	if d < 1 || len(points)%d != 0 {
 		panic("cholesky: len(points) is not a multiple of d ≥ 1")
@@ -177,17 +197,18 @@ func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Ke
 		lengthScale: ord.LengthScale,
 		rho:         set.Rho,
 		neighbors:   set.Neighbors,
-		colStart:    pat.ColStart,
-		rows:        pat.Rows,
-		values:      make([]float64, len(pat.Rows)),
+		lambda:      max(1, set.Lambda),
 	}
 	for p, i := range f.order {
 		f.position[i] = p
 	}
+	start := time.Now()
+	f.setSupernodes(ordering.Aggregate(pat, ord.LengthScale, set.Lambda))
+	f.timings.Aggregation = time.Since(start)
 	if err := f.checkDuplicates(); err != nil {
 		return nil, err
 	}
-	start := time.Now()
+	start = time.Now()
 	if err := f.compute(ctx, set.Workers); err != nil {
 		return nil, err
 	}
@@ -215,6 +236,35 @@ func (f *Factor) checkDuplicates() error {
 	return nil
 }
 
+// setSupernodes stores the supernodes and derives each column's place in them.
+func (f *Factor) setSupernodes(sn *ordering.Supernodes) {
+	f.memberStart, f.members, f.superRowStart, f.rows = sn.MemberStart, sn.Members, sn.RowStart, sn.Rows
+	f.colStart = make([]int64, f.n+1)
+	f.rowStart = make([]int64, f.n)
+	counts := make([]int64, f.n)
+	for s := range sn.Len() {
+		rows := sn.RowsOf(s)
+		for _, j := range sn.MembersOf(s) {
+			at, found := slices.BinarySearch(rows, j)
+			if !found {
+				panic("cholesky: a supernode's row set lacks one of its members")
+			}
+			counts[j] = int64(len(rows) - at)
+			f.rowStart[j] = sn.RowStart[s] + int64(at)
+		}
+	}
+	for j, c := range counts {
+		f.colStart[j+1] = f.colStart[j] + c
+	}
+	f.values = make([]float64, f.colStart[f.n])
+}
+
+// col returns column j's rows (ascending positions, the first being j) and values.
+func (f *Factor) col(j int) ([]int32, []float64) {
+	vals := f.values[f.colStart[j]:f.colStart[j+1]]
+	return f.rows[f.rowStart[j] : f.rowStart[j]+int64(len(vals))], vals
+}
+
 func equalPoints(a, b []float64) bool {
 	for i := range a {
 		if a[i] != b[i] {
@@ -226,27 +276,36 @@ func equalPoints(a, b []float64) bool {
 
 func (f *Factor) point(p int) []float64 { return f.points[p*f.d : (p+1)*f.d] }
 
-// columnsPerTask is the number of consecutive columns one task computes.
-const columnsPerTask = 64
-
 // serialColumns is the size below which New computes on one goroutine.
 const serialColumns = 512
 
-// compute fills f.values column by column on workers goroutines. Each worker owns a
-// workspace sized for the largest column and writes only its columns' values, so the result
-// is the same bits for any worker count.
+// compute fills f.values supernode by supernode on workers goroutines. Each worker owns a
+// workspace sized for the largest row set, takes small batches of consecutive supernodes and
+// writes only their members' values, so the result is the same bits for any worker count.
 func (f *Factor) compute(ctx context.Context, workers int) error {
+	supernodes := len(f.memberStart) - 1
 	maxRows := 0
-	for j := range f.n {
-		maxRows = max(maxRows, int(f.colStart[j+1]-f.colStart[j]))
+	for s := range supernodes {
+		maxRows = max(maxRows, int(f.superRowStart[s+1]-f.superRowStart[s]))
 	}
-	tasks := (f.n + columnsPerTask - 1) / columnsPerTask
+	// Batches of roughly equal work: about 64 columns' worth of supernodes each.
+	var batches []int
+	for s, cols := 0, int64(0); s < supernodes; s++ {
+		if cols == 0 {
+			batches = append(batches, s)
+		}
+		cols += f.memberStart[s+1] - f.memberStart[s]
+		if cols >= 64 {
+			cols = 0
+		}
+	}
+	batches = append(batches, supernodes)
+	tasks := len(batches) - 1
 	if f.n < serialColumns {
 		workers = 1
 	}
-	workers = min(workers, tasks)
-	var next atomic.Int64
-	var jittered atomic.Int64
+	workers = max(1, min(workers, tasks))
+	var next, jittered atomic.Int64
 	g, ctx := errgroup.WithContext(ctx)
 	g.SetLimit(workers)
 	for range workers {
@@ -260,14 +319,12 @@ func (f *Factor) compute(ctx context.Context, workers int) error {
 				if err := ctx.Err(); err != nil {
 					return err
 				}
-				for j := t * columnsPerTask; j < min(f.n, (t+1)*columnsPerTask); j++ {
-					used, err := f.column(j, w)
+				for s := batches[t]; s < batches[t+1]; s++ {
+					used, err := f.supernode(s, w)
 					if err != nil {
 						return err
 					}
-					if used {
-						jittered.Add(1)
-					}
+					jittered.Add(int64(used))
 				}
 			}
 		})
@@ -293,47 +350,56 @@ func newWorkspace(maxRows int) *workspace {
 // tried in turn when a local block is not numerically positive definite.
 var jitters = [...]float64{0, 1e-12, 1e-10, 1e-8}
 
-// column computes column j: with s its rows listed so that j comes last, Θ_{s,s} = C Cᵀ and
-// L_{s,j} = C⁻ᵀ e_last. It reports whether a jitter was needed.
-func (f *Factor) column(j int, w *workspace) (bool, error) {
-	rows := f.rows[f.colStart[j]:f.colStart[j+1]]
-	m := len(rows)
-	idx := w.index[:m]
+// supernode computes the columns of supernode s. With U its row set (ascending, u rows) and
+// J the reversal, J Θ_{U,U} J = C Cᵀ (ordinary lower Cholesky), so Θ_{U,U} = (JCJ)(JCJ)ᵀ with
+// JCJ upper triangular, and member k at index t of U gets L_{U,k} = J C⁻ᵀ e_{u−1−t}, whose
+// entries above t vanish: one back substitution with the leading (u−t)×(u−t) block of Cᵀ
+// (DESIGN.md §4). It returns the number of members that needed a jitter (all or none).
+// Cost O(u³/3 + Σ_k (u−t_k)²).
+func (f *Factor) supernode(s int, w *workspace) (int, error) {
+	rows := f.rows[f.superRowStart[s]:f.superRowStart[s+1]]
+	members := f.members[f.memberStart[s]:f.memberStart[s+1]]
+	u := len(rows)
+	idx := w.index[:u]
 	for a, r := range rows {
-		idx[m-1-a] = r
+		idx[u-1-a] = r
 	}
-	a := w.block[:m*m]
+	a := w.block[:u*u]
 	for attempt, jitter := range jitters {
-		kernels.FillLower(f.kernel, a, m, f.points, idx)
+		kernels.FillLower(f.kernel, a, u, f.points, idx)
 		if jitter > 0 {
 			var diag float64
-			for i := range m {
-				diag = max(diag, a[i*m+i])
+			for i := range u {
+				diag = max(diag, a[i*u+i])
 			}
-			for i := range m {
-				a[i*m+i] += jitter * diag
+			for i := range u {
+				a[i*u+i] += jitter * diag
 			}
 		}
-		t, ok := lapack64.Potrf(blas64.Symmetric{Uplo: blas.Lower, N: m, Stride: m, Data: a})
+		c, ok := lapack64.Potrf(blas64.Symmetric{Uplo: blas.Lower, N: u, Stride: u, Data: a})
 		if !ok {
 			continue
 		}
-		// Solve Cᵀ v = e_last in place in the workspace's last row of a's upper part: use
-		// the column vector stored in values directly (reversed back to ascending rows).
-		vals := f.values[f.colStart[j]:f.colStart[j+1]]
-		// v in reversed order is written into vals reversed: vals[a] = v[m-1-a].
-		v := blas64.Vector{N: m, Inc: -1, Data: vals}
-		for i := range vals {
-			vals[i] = 0
-		}
-		vals[0] = 1 // v[m-1] = 1 before the solve
-		blas64.Trsv(blas.Trans, t, v)
-		for _, x := range vals {
-			if math.IsNaN(x) || math.IsInf(x, 0) {
-				return false, fmt.Errorf("cholesky: column of point %d is not finite", f.order[j])
+		for _, k := range members {
+			_, vals := f.col(int(k))
+			m := len(vals) // = u − t
+			// vals[q] is the entry on row U[t+q], reversed index m−1−q: a vector of
+			// length m with increment −1 over vals; e_{m−1} is vals[0].
+			clear(vals)
+			vals[0] = 1
+			lead := blas64.Triangular{Uplo: blas.Lower, Diag: blas.NonUnit, N: m, Stride: u, Data: c.Data}
+			blas64.Trsv(blas.Trans, lead, blas64.Vector{N: m, Inc: -1, Data: vals})
+			for _, x := range vals {
+				if math.IsNaN(x) || math.IsInf(x, 0) {
+					return 0, fmt.Errorf("cholesky: column of point %d is not finite", f.order[k])
+				}
 			}
 		}
-		return attempt > 0, nil
+		if attempt > 0 {
+			return len(members), nil
+		}
+		return 0, nil
 	}
-	return false, fmt.Errorf("cholesky: the local kernel matrix of point %d (%d rows, length scale %.3g) is not numerically positive definite even with jitter %g; points may nearly coincide: set a nugget", f.order[j], m, f.lengthScale[j], jitters[len(jitters)-1])
+	j := members[0]
+	return 0, fmt.Errorf("cholesky: the local kernel matrix of point %d (%d rows, length scale %.3g) is not numerically positive definite even with jitter %g; points may nearly coincide: set a nugget", f.order[j], u, f.lengthScale[j], jitters[len(jitters)-1])
 }

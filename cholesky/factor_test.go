@@ -80,10 +80,10 @@ func TestFullPatternIsExactFactor(t *testing.T) {
 					// L_pos[p][q] = (C⁻ᵀ)[n-1-p][n-1-q] = C⁻¹[n-1-q][n-1-p].
 					var num, den float64
 					for j := range n {
-						for kk := f.colStart[j]; kk < f.colStart[j+1]; kk++ {
-							p := int(f.rows[kk])
-							want := cInv.At(n-1-j, n-1-p)
-							num += (f.values[kk] - want) * (f.values[kk] - want)
+						rows, vals := f.col(j)
+						for kk, p := range rows {
+							want := cInv.At(n-1-j, n-1-int(p))
+							num += (vals[kk] - want) * (vals[kk] - want)
 							den += want * want
 						}
 					}
@@ -139,9 +139,13 @@ func TestWorkersGiveIdenticalBits(t *testing.T) {
 				if len(f.values) != len(ref.values) {
 					t.Fatalf("workers=%d: nnz %d, want %d", workers, len(f.values), len(ref.values))
 				}
-				for i := range f.values {
-					if math.Float64bits(f.values[i]) != math.Float64bits(ref.values[i]) || f.rows[i] != ref.rows[i] {
-						t.Fatalf("workers=%d: entry %d differs", workers, i)
+				for j := range f.n {
+					rows, vals := f.col(j)
+					refRows, refVals := ref.col(j)
+					for i := range vals {
+						if math.Float64bits(vals[i]) != math.Float64bits(refVals[i]) || rows[i] != refRows[i] {
+							t.Fatalf("workers=%d: column %d entry %d differs", workers, j, i)
+						}
 					}
 				}
 			}
@@ -323,16 +327,20 @@ func TestColumnAllocatesNothing(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	w := newWorkspace(31)
-	j := 0
+	maxRows := 0
+	for s := range f.Supernodes() {
+		maxRows = max(maxRows, int(f.superRowStart[s+1]-f.superRowStart[s]))
+	}
+	w := newWorkspace(maxRows)
+	s := 0
 	allocs := testing.AllocsPerRun(200, func() {
-		if _, err := f.column(j%f.n, w); err != nil {
+		if _, err := f.supernode(s%f.Supernodes(), w); err != nil {
 			t.Fatal(err)
 		}
-		j++
+		s++
 	})
 	if allocs != 0 {
-		t.Errorf("column allocates %v times", allocs)
+		t.Errorf("supernode allocates %v times", allocs)
 	}
 }
 

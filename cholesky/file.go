@@ -147,7 +147,7 @@ func (f *Factor) WriteTo(w io.Writer) (int64, error) {
 	e.u32(FormatVersion)
 	e.u32(uint32(f.d))
 	e.u64(uint64(f.n))
-	e.u64(uint64(len(f.rows)))
+	e.u64(uint64(len(f.values)))
 	e.f64(f.rho)
 	e.u32(uint32(f.neighbors))
 	e.u32(uint32(f.jittered))
@@ -171,8 +171,11 @@ func (f *Factor) WriteTo(w io.Writer) (int64, error) {
 	for _, s := range f.colStart {
 		e.u64(uint64(s))
 	}
-	for _, r := range f.rows {
-		e.u32(uint32(r))
+	for j := range f.n {
+		rows, _ := f.col(j)
+		for _, r := range rows {
+			e.u32(uint32(r))
+		}
 	}
 	e.f64s(f.values)
 	e.flush()
@@ -482,6 +485,17 @@ func read(r io.Reader, size int64) (*Factor, error) {
 			return nil, fmt.Errorf("column %d: diagonal %v, want > 0", j, v)
 		}
 	}
+	// The file stores every column's rows in full: read back, each column is its own
+	// supernode with its own row set.
+	f.lambda = 1
+	f.memberStart = make([]int64, n+1)
+	f.members = make([]int32, n)
+	for j := range n {
+		f.memberStart[j+1] = int64(j + 1)
+		f.members[j] = int32(j)
+	}
+	f.superRowStart = f.colStart
+	f.rowStart = f.colStart[:n]
 	return f, nil
 }
 

@@ -22,7 +22,7 @@ func (f *Factor) N() int { return f.n }
 func (f *Factor) Dim() int { return f.d }
 
 // NNZ returns the number of stored nonzeros of L.
-func (f *Factor) NNZ() int { return len(f.rows) }
+func (f *Factor) NNZ() int { return len(f.values) }
 
 // Kernel returns the kernel the factor approximates.
 func (f *Factor) Kernel() kernels.Kernel { return f.kernel }
@@ -32,6 +32,16 @@ func (f *Factor) Rho() float64 { return f.rho }
 
 // Neighbors returns m of the nearest-neighbour pattern, or 0 for the radius pattern.
 func (f *Factor) Neighbors() int { return f.neighbors }
+
+// Lambda returns the supernode aggregation parameter λ used (1: no aggregation).
+func (f *Factor) Lambda() float64 { return f.lambda }
+
+// Supernodes returns the number of supernodes (N without aggregation).
+func (f *Factor) Supernodes() int { return len(f.memberStart) - 1 }
+
+// StoredRows returns the number of row indices stored: the summed sizes of the supernodes' row
+// sets, which are shared by their members.
+func (f *Factor) StoredRows() int { return len(f.rows) }
 
 // Jittered returns the number of columns whose local block needed a diagonal jitter.
 func (f *Factor) Jittered() int { return f.jittered }
@@ -104,9 +114,9 @@ func (f *Factor) mulL(y, x []float64) {
 		if xj == 0 {
 			continue
 		}
-		lo, hi := f.colStart[j], f.colStart[j+1]
-		for k := lo; k < hi; k++ {
-			y[f.rows[k]] += f.values[k] * xj
+		rows, vals := f.col(j)
+		for k, r := range rows {
+			y[r] += vals[k] * xj
 		}
 	}
 }
@@ -115,9 +125,9 @@ func (f *Factor) mulL(y, x []float64) {
 func (f *Factor) mulLT(y, x []float64) {
 	for j := range f.n {
 		var s float64
-		lo, hi := f.colStart[j], f.colStart[j+1]
-		for k := lo; k < hi; k++ {
-			s += f.values[k] * x[f.rows[k]]
+		rows, vals := f.col(j)
+		for k, r := range rows {
+			s += vals[k] * x[r]
 		}
 		y[j] = s
 	}
@@ -126,11 +136,11 @@ func (f *Factor) mulLT(y, x []float64) {
 // solveL overwrites x (positions) with L⁻¹ x.
 func (f *Factor) solveL(x []float64) {
 	for j := range f.n {
-		lo, hi := f.colStart[j], f.colStart[j+1]
-		xj := x[j] / f.values[lo]
+		rows, vals := f.col(j)
+		xj := x[j] / vals[0]
 		x[j] = xj
-		for k := lo + 1; k < hi; k++ {
-			x[f.rows[k]] -= f.values[k] * xj
+		for k := 1; k < len(rows); k++ {
+			x[rows[k]] -= vals[k] * xj
 		}
 	}
 }
@@ -138,12 +148,12 @@ func (f *Factor) solveL(x []float64) {
 // solveLT overwrites x (positions) with L⁻ᵀ x.
 func (f *Factor) solveLT(x []float64) {
 	for j := f.n - 1; j >= 0; j-- {
-		lo, hi := f.colStart[j], f.colStart[j+1]
+		rows, vals := f.col(j)
 		s := x[j]
-		for k := lo + 1; k < hi; k++ {
-			s -= f.values[k] * x[f.rows[k]]
+		for k := 1; k < len(rows); k++ {
+			s -= vals[k] * x[rows[k]]
 		}
-		x[j] = s / f.values[lo]
+		x[j] = s / vals[0]
 	}
 }
 

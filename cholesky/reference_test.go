@@ -172,7 +172,8 @@ func TestAgainstBruteForceReference(t *testing.T) {
 		for p, i := range ref.Order {
 			copy(permuted[p*set.d:(p+1)*set.d], set.points[i*set.d:(i+1)*set.d])
 		}
-		for _, pat := range []Settings{{Rho: 2}, {Rho: 3}, {Neighbors: 10}, {Neighbors: 30}} {
+		// Lambda 1: no aggregation, so the columns are exactly the brute-force pattern's.
+		for _, pat := range []Settings{{Rho: 2, Lambda: 1}, {Rho: 3, Lambda: 1}, {Neighbors: 10, Lambda: 1}, {Neighbors: 30, Lambda: 1}} {
 			cols := brutePattern(permuted, set.d, ref.LengthScale, pat.Rho, pat.Neighbors)
 			for _, family := range allFamilies {
 				// A length scale of a few point spacings; the Gaussian kernel gets a nugget
@@ -194,12 +195,12 @@ func TestAgainstBruteForceReference(t *testing.T) {
 					}
 					worst, condScaled := 0.0, 0
 					for j := range n {
-						rows := f.rows[f.colStart[j]:f.colStart[j+1]]
+						rows, vals := f.col(j)
 						if !slices.Equal(rows, cols[j]) {
 							t.Fatalf("column %d: rows %v, brute force %v", j, rows, cols[j])
 						}
 						want, cond := bruteColumn(t, k, permuted, set.d, cols[j])
-						e := relativeError(f.values[f.colStart[j]:f.colStart[j+1]], want)
+						e := relativeError(vals, want)
 						tol := tolerance
 						if c := condFactor * cond * 0x1p-52; c > tol {
 							tol = c

@@ -1,0 +1,124 @@
+package cholesky
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"slices"
+	"testing"
+
+	"github.com/kchol/kchol/kernels"
+	"github.com/kchol/kchol/ordering"
+)
+
+func TestSupernodalEqualsColumnwiseOnAggregatedPattern(t *testing.T) {
+	// The supernodal factor (one Cholesky per supernode, one triangular solve per member)
+	// must equal the per-column closed form on the pattern the supernodes induce (DESIGN.md
+	// §4). The per-column code is itself checked against dense gonum in reference_test.go.
+	const (
+		tolerance  = 1e-12
+		condFactor = 10.0 // cond-scaled allowance as in TestAgainstBruteForceReference
+	)
+	n := 3000
+	if testing.Short() {
+		n = 800
+	}
+	for _, set := range []struct {
+		name   string
+		d      int
+		points []float64
+	}{
+		{"uniform2d", 2, uniformPoints(n, 2, 41)},
+		{"clustered2d", 2, clusteredPoints(n, 2, 42)},
+		{"uniform3d", 3, uniformPoints(n, 3, 43)},
+	} {
+		for _, pat := range []Settings{{Rho: 3}, {Neighbors: 20}} {
+			for _, lambda := range []float64{1.3, 1.5, 2} {
+				name := fmt.Sprintf("%s/n=%d/rho=%g/m=%d/lambda=%g", set.name, n, pat.Rho, pat.Neighbors, lambda)
+				t.Run(name, func(t *testing.T) {
+					k := kernels.Stationary{Family: kernels.Matern32, Dimension: set.d, LengthScale: 0.1}
+					s := pat
+					s.Lambda = lambda
+					super, err := New(context.Background(), set.points, set.d, k, &s)
+					if err != nil {
+						t.Fatal(err)
+					}
+					if super.Supernodes() >= n {
+						t.Fatalf("%d supernodes for %d columns: nothing aggregated", super.Supernodes(), n)
+					}
+					ord := ordering.Ordering{Order: super.order, LengthScale: super.lengthScale}
+					sn := &ordering.Supernodes{MemberStart: super.memberStart, Members: super.members, RowStart: super.superRowStart, Rows: super.rows}
+					plain, err := NewFromPattern(context.Background(), set.points, set.d, k, ord, sn.Pattern(), &Settings{Lambda: 1})
+					if err != nil {
+						t.Fatal(err)
+					}
+					if plain.NNZ() != super.NNZ() {
+						t.Fatalf("nnz %d, per-column on the aggregated pattern %d", super.NNZ(), plain.NNZ())
+					}
+					worst := 0.0
+					for j := range n {
+						rows, vals := super.col(j)
+						wantRows, want := plain.col(j)
+						if !slices.Equal(rows, wantRows) {
+							t.Fatalf("column %d rows differ", j)
+						}
+						e := relativeError(vals, want)
+						worst = max(worst, e)
+						if e > tolerance {
+							// Allow rounding proportional to the local condition number.
+							_, cond := bruteColumn(t, k, super.points, set.d, rows)
+							if e > max(tolerance, condFactor*cond*0x1p-52) {
+								t.Fatalf("column %d: relative error %.3g (local cond %.3g)", j, e, cond)
+							}
+						}
+					}
+					t.Logf("supernodes %d (mean size %.2f), nnz/N %.1f, stored rows/N %.1f, worst column error %.3g",
+						super.Supernodes(), float64(n)/float64(super.Supernodes()), float64(super.NNZ())/float64(n),
+						float64(super.StoredRows())/float64(n), worst)
+				})
+			}
+		}
+	}
+}
+
+func TestSupernodesNeverIncreaseKL(t *testing.T) {
+	// Aggregation only adds rows to every column, and the KL-optimal factor on a larger
+	// pattern has KL no larger (Schäfer, Katzfuss, Owhadi 2021, §3.2). KL from dense Θ.
+	n := 2000
+	if testing.Short() {
+		n = 600
+	}
+	for _, family := range allFamilies {
+		for _, pat := range []Settings{{Rho: 2}, {Rho: 3}, {Neighbors: 10}, {Neighbors: 30}} {
+			name := fmt.Sprintf("uniform2d/n=%d/%v/rho=%g/m=%d", n, family, pat.Rho, pat.Neighbors)
+			t.Run(name, func(t *testing.T) {
+				nugget := 0.0
+				if family == kernels.Gaussian {
+					nugget = 1e-6
+				}
+				points := uniformPoints(n, 2, 51)
+				k := kernels.Stationary{Family: family, Dimension: 2, LengthScale: 0.1, Nugget: nugget}
+				theta := denseKernelMatrix(k, points, 2)
+				logDet := denseCholesky(t, theta).LogDet()
+				tolerance := 1e-9 * (math.Abs(logDet) + float64(n))
+				var kls []float64
+				for _, lambda := range []float64{1, 1.5, 2} {
+					s := pat
+					s.Lambda = lambda
+					f, err := New(context.Background(), points, 2, k, &s)
+					if err != nil {
+						t.Fatal(err)
+					}
+					kl, _ := klDivergence(f, theta, logDet)
+					kls = append(kls, kl)
+					t.Logf("λ=%g: supernodes %d, nnz/N %.1f, KL %.5g", lambda, f.Supernodes(), float64(f.NNZ())/float64(n), kl)
+				}
+				for i := 1; i < len(kls); i++ {
+					if kls[i] > kls[0]+tolerance {
+						t.Errorf("KL with aggregation %.6g exceeds the plain pattern's %.6g", kls[i], kls[0])
+					}
+				}
+			})
+		}
+	}
+}
