@@ -7,6 +7,7 @@ import (
 	"math"
 	"runtime"
 	"slices"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -39,6 +40,53 @@ type Settings struct {
 	Lambda float64
 	// Workers is the number of goroutines computing columns. 0 means GOMAXPROCS.
 	Workers int
+	// MaxMemory, when > 0, is a limit in bytes on the factor's estimated memory (its values,
+	// indices and the workers' workspaces), checked after the pattern is built and before the
+	// factor is allocated; New returns a *MemoryError when the estimate exceeds it.
+	// 0 means no limit.
+	MaxMemory int64
+	// Progress, when not nil, is called as the phases advance: once with Done = 0 when a
+	// phase starts, once with Done = Total when it ends, and for the factor phase about every
+	// 1 % of the columns in between. Calls are serialised; it should return quickly.
+	Progress func(Progress)
+}
+
+// Phase names a phase of New.
+type Phase int
+
+// The phases of New, in order.
+const (
+	PhaseOrdering Phase = iota
+	PhasePattern
+	PhaseAggregation
+	PhaseFactor
+)
+
+var phaseNames = [...]string{"ordering", "pattern", "aggregation", "factor"}
+
+// String returns the phase's name in lower case ("ordering").
+func (p Phase) String() string {
+	if p >= 0 && int(p) < len(phaseNames) {
+		return phaseNames[p]
+	}
+	return fmt.Sprintf("Phase(%d)", int(p))
+}
+
+// Progress reports how far a phase of New has come: Done of Total units (columns for the
+// factor phase, 0 or 1 for the others).
+type Progress struct {
+	Phase       Phase
+	Done, Total int64
+}
+
+// MemoryError is returned by New when the factor's estimated memory exceeds
+// Settings.MaxMemory.
+type MemoryError struct {
+	Estimate, Limit int64
+}
+
+func (e *MemoryError) Error() string {
+	return fmt.Sprintf("cholesky: the factor needs about %.3g GB, more than the limit of %.3g GB; lower ρ, m or λ, or raise the limit", float64(e.Estimate)/1e9, float64(e.Limit)/1e9)
 }
 
 func (s *Settings) withDefaults() Settings {
@@ -102,7 +150,9 @@ type Factor struct {
 
 	// jittered counts the columns whose local block needed a diagonal jitter.
 	jittered int
-	timings  Timings
+	// memory is the estimate of New's memory use in bytes.
+	memory  int64
+	timings Timings
 }
 
 // New orders the points (flat, row-major, d per point, in the user's order) by reverse
@@ -137,8 +187,11 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 			return nil, fmt.Errorf("cholesky: point %d coordinate %d is %v", i/d, i%d, v)
 		}
 	}
+	report := set.progress()
 	start := time.Now()
+	report(Progress{PhaseOrdering, 0, 1})
 	ord := ordering.ReverseMaximin(points, d, nil)
+	report(Progress{PhaseOrdering, 1, 1})
 	orderTime := time.Since(start)
 	if err := ctx.Err(); err != nil {
 		return nil, err
@@ -148,12 +201,14 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 		copy(permuted[p*d:(p+1)*d], points[i*d:(i+1)*d])
 	}
 	start = time.Now()
+	report(Progress{PhasePattern, 0, 1})
 	var pat *ordering.Pattern
 	if set.Rho > 0 {
 		pat = ordering.Radius(permuted, d, ord.LengthScale, set.Rho)
 	} else {
 		pat = ordering.NearestNeighbors(permuted, d, set.Neighbors)
 	}
+	report(Progress{PhasePattern, 1, 1})
 	patternTime := time.Since(start)
 	f, err := newFromPattern(ctx, permuted, d, k, ord, pat, set)
 	if err != nil {
@@ -202,14 +257,22 @@ func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Ke
 	for p, i := range f.order {
 		f.position[i] = p
 	}
+	report := set.progress()
 	start := time.Now()
+	report(Progress{PhaseAggregation, 0, 1})
 	f.setSupernodes(ordering.Aggregate(pat, ord.LengthScale, set.Lambda))
+	report(Progress{PhaseAggregation, 1, 1})
 	f.timings.Aggregation = time.Since(start)
 	if err := f.checkDuplicates(); err != nil {
 		return nil, err
 	}
+	f.memory = f.estimateMemory(set.Workers)
+	if set.MaxMemory > 0 && f.memory > set.MaxMemory {
+		return nil, &MemoryError{Estimate: f.memory, Limit: set.MaxMemory}
+	}
+	f.values = make([]float64, f.colStart[f.n])
 	start = time.Now()
-	if err := f.compute(ctx, set.Workers); err != nil {
+	if err := f.compute(ctx, set.Workers, report); err != nil {
 		return nil, err
 	}
 	f.timings.Factor = time.Since(start)
@@ -256,7 +319,37 @@ func (f *Factor) setSupernodes(sn *ordering.Supernodes) {
 	for j, c := range counts {
 		f.colStart[j+1] = f.colStart[j] + c
 	}
-	f.values = make([]float64, f.colStart[f.n])
+}
+
+// progress returns a serialised Progress callback, or one that does nothing.
+func (s Settings) progress() func(Progress) {
+	if s.Progress == nil {
+		return func(Progress) {}
+	}
+	var mu sync.Mutex
+	return func(p Progress) {
+		mu.Lock()
+		defer mu.Unlock()
+		s.Progress(p)
+	}
+}
+
+// maxRowSet returns the size of the largest supernode row set.
+func (f *Factor) maxRowSet() int {
+	largest := 0
+	for s := range len(f.memberStart) - 1 {
+		largest = max(largest, int(f.superRowStart[s+1]-f.superRowStart[s]))
+	}
+	return largest
+}
+
+// estimateMemory returns the bytes the factor holds once computed (values, row indices,
+// column and supernode offsets, points, ordering) plus the workers' workspaces.
+func (f *Factor) estimateMemory(workers int) int64 {
+	n, s := int64(f.n), int64(len(f.memberStart)-1)
+	u := int64(f.maxRowSet())
+	return 8*f.colStart[f.n] + 4*int64(len(f.rows)) + 8*(n+1) + 8*n + 4*n + 16*(s+1) +
+		8*n*int64(f.d) + 24*n + int64(workers)*(8*u*u+4*u)
 }
 
 // col returns column j's rows (ascending positions, the first being j) and values.
@@ -282,12 +375,13 @@ const serialColumns = 512
 // compute fills f.values supernode by supernode on workers goroutines. Each worker owns a
 // workspace sized for the largest row set, takes small batches of consecutive supernodes and
 // writes only their members' values, so the result is the same bits for any worker count.
-func (f *Factor) compute(ctx context.Context, workers int) error {
+func (f *Factor) compute(ctx context.Context, workers int, report func(Progress)) error {
 	supernodes := len(f.memberStart) - 1
-	maxRows := 0
-	for s := range supernodes {
-		maxRows = max(maxRows, int(f.superRowStart[s+1]-f.superRowStart[s]))
-	}
+	maxRows := f.maxRowSet()
+	total := int64(f.n)
+	step := max(1, total/100)
+	var done atomic.Int64
+	report(Progress{PhaseFactor, 0, total})
 	// Batches of roughly equal work: about 64 columns' worth of supernodes each.
 	var batches []int
 	for s, cols := 0, int64(0); s < supernodes; s++ {
@@ -326,12 +420,17 @@ func (f *Factor) compute(ctx context.Context, workers int) error {
 					}
 					jittered.Add(int64(used))
 				}
+				cols := f.memberStart[batches[t+1]] - f.memberStart[batches[t]]
+				if now := done.Add(cols); now/step != (now-cols)/step && now < total {
+					report(Progress{PhaseFactor, now, total})
+				}
 			}
 		})
 	}
 	if err := g.Wait(); err != nil {
 		return err
 	}
+	report(Progress{PhaseFactor, total, total})
 	f.jittered = int(jittered.Load())
 	return nil
 }
