@@ -18,8 +18,10 @@ import (
 // factorOptions are the flags of kchol factor.
 type factorOptions struct {
 	points, columns, kernel, lengthScale, output string
-	variance, nugget, rho                        float64
+	variance, nugget, rho, lambda                float64
 	neighbors, workers                           int
+	maxMemory                                    string
+	quiet                                        bool
 }
 
 func factorCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -33,7 +35,10 @@ func factorCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Wri
 	fs.Float64Var(&o.nugget, "nugget", 0, "`nugget` added to the diagonal of the kernel matrix, ≥ 0")
 	fs.IntVar(&o.neighbors, "neighbors", cholesky.DefaultNeighbors, "nearest-neighbour pattern (the default) with `m` nearest coarser points per column")
 	fs.Float64Var(&o.rho, "rho", 0, "radius pattern S_ρ with this `ρ` > 0 instead of nearest neighbours (inf: the full, exact factor)")
+	fs.Float64Var(&o.lambda, "lambda", 1.5, "supernode aggregation `λ`: columns within a factor λ in length scale share one row set; 0 or 1 means none")
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
+	fs.StringVar(&o.maxMemory, "max-memory", "", "refuse to factor when the estimated memory exceeds this `size` (e.g. 4GiB, 500MB, 2e9 bytes; 0: no limit; default 80% of physical memory)")
+	fs.BoolVar(&o.quiet, "quiet", false, "print no progress, only the summary line")
 	fs.StringVar(&o.output, "o", "", "factor `file` to write (required)")
 	return fs, func(ctx context.Context, fs *flag.FlagSet, stdout, stderr io.Writer) error {
 		return runFactor(ctx, fs, o, stderr)
@@ -75,6 +80,8 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 		return 0, nil, nil, nil, usagef("factor: -rho %v, want a value > 0 (or inf)", o.rho)
 	case o.workers < 0:
 		return 0, nil, nil, nil, usagef("factor: -workers %d, want ≥ 0", o.workers)
+	case !(o.lambda == 0 || o.lambda >= 1) || math.IsInf(o.lambda, 0):
+		return 0, nil, nil, nil, usagef("factor: -lambda %v, want 0, 1 (no aggregation) or a finite value > 1", o.lambda)
 	case o.output == "":
 		return 0, nil, nil, nil, usagef("factor: -o is empty")
 	}
@@ -85,9 +92,15 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 			return 0, nil, nil, nil, err
 		}
 	}
-	s := &cholesky.Settings{Neighbors: o.neighbors, Workers: o.workers}
+	limit, err := parseMemory(o.maxMemory)
+	if err != nil {
+		return 0, nil, nil, nil, err
+	}
+	// -lambda 0 means no aggregation; in cholesky.Settings that is any value ≤ 1, and 0
+	// means the default.
+	s := &cholesky.Settings{Neighbors: o.neighbors, Lambda: max(1, o.lambda), Workers: o.workers, MaxMemory: limit}
 	if set["rho"] {
-		s = &cholesky.Settings{Rho: o.rho, Workers: o.workers}
+		s.Rho, s.Neighbors = o.rho, 0
 	}
 	return family, scales, columns, s, nil
 }
@@ -153,7 +166,10 @@ func runFactor(ctx context.Context, fs *flag.FlagSet, o *factorOptions, stderr i
 	default:
 		return usagef("factor: -lengthscale has %d values, but %s has %d coordinate columns (%s)", len(scales), o.points, d, strings.Join(points.header, ", "))
 	}
+	progress := newProgress(stderr, o.quiet)
+	settings.Progress = progress.report
 	f, err := cholesky.New(ctx, points.values, d, k, settings)
+	progress.finish()
 	if err != nil {
 		return fmt.Errorf("%s: %w", o.points, err)
 	}
@@ -163,8 +179,9 @@ func runFactor(ctx context.Context, fs *flag.FlagSet, o *factorOptions, stderr i
 	}
 	writeTime := time.Since(start)
 	tm := f.Timings()
-	fmt.Fprintf(stderr, "kchol factor: %s; seconds: read %s, ordering %s, pattern %s, factor %s, write %s%s\n",
-		describe(f), seconds(readTime), seconds(tm.Ordering), seconds(tm.Pattern), seconds(tm.Factor), seconds(writeTime), jitterNote(f))
+	count, members, _ := f.SupernodeStats()
+	fmt.Fprintf(stderr, "kchol factor: %s, %d supernodes (%.2f columns each); seconds: read %s, ordering %s, pattern %s, aggregation %s, factor %s, write %s%s\n",
+		describe(f), count, members, seconds(readTime), seconds(tm.Ordering), seconds(tm.Pattern), seconds(tm.Aggregation), seconds(tm.Factor), seconds(writeTime), jitterNote(f))
 	return nil
 }
 

@@ -9,6 +9,7 @@
 //	             -lengthscale L [-variance V] [-nugget E] [-neighbors M | -rho R] [-workers W] -o F
 //	kchol solve  -factor F -rhs B.csv [-workers W] -o X.csv
 //	kchol logdet -factor F
+//	kchol timing [-n N] [-points uniform|clustered] [flags]
 //	kchol demo   [flags]
 //	kchol help
 //
@@ -56,6 +57,9 @@ func commands() []command {
 			"compute X = L Lᵀ B ≈ Θ⁻¹ B for every column of B.csv; rows in the order of P.csv", solveCommand},
 		{"logdet", "-factor F",
 			"print log det Θ ≈ −2 Σ log Lⱼⱼ (the last line of standard output)", logdetCommand},
+		{"bench", "-o DIR [-config C.json] [flags]", "measure accuracy against dense solves, baselines and time against N; write a report to DIR", benchCommand},
+		{"timing", "[-n N] [-points uniform|clustered] [flags]",
+			"time ordering, pattern, aggregation and factor on generated points, with throughput against gonum's Potrf", timingCommand},
 	}
 }
 
