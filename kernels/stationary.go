@@ -243,21 +243,21 @@ func applyProfile(f Family, v float64, row []float64) {
 	switch f {
 	case Matern12:
 		for b, r2 := range row {
-			row[b] = v * math.Exp(-math.Sqrt(r2))
+			row[b] = v * expNonPositive(-math.Sqrt(r2))
 		}
 	case Matern32:
 		for b, r2 := range row {
 			s := math.Sqrt(3 * r2)
-			row[b] = v * (1 + s) * math.Exp(-s)
+			row[b] = v * (1 + s) * expNonPositive(-s)
 		}
 	case Matern52:
 		for b, r2 := range row {
 			s := math.Sqrt(5 * r2)
-			row[b] = v * (1 + s + s*s/3) * math.Exp(-s)
+			row[b] = v * (1 + s + s*s/3) * expNonPositive(-s)
 		}
 	case Gaussian:
 		for b, r2 := range row {
-			row[b] = v * math.Exp(-r2/2)
+			row[b] = v * expNonPositive(-r2/2)
 		}
 	default:
 		panic("kernels: unknown family")
