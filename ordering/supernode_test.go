@@ -1,0 +1,109 @@
+package ordering
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"testing"
+)
+
+// bruteAggregate follows DESIGN.md §3 literally with sets: walk the columns from the finest;
+// an unassigned j opens J = {unassigned i in column j : ℓᵢ ≤ λ·ℓⱼ}; J's rows are the union of
+// its members' columns.
+func bruteAggregate(p *Pattern, lengthScale []float64, lambda float64) (members, rows [][]int32) {
+	assigned := map[int32]bool{}
+	for j := range p.N() {
+		if assigned[int32(j)] {
+			continue
+		}
+		var group []int32
+		for _, i := range p.Col(j) {
+			if !assigned[i] && lengthScale[i] <= lambda*lengthScale[j] {
+				group = append(group, i)
+				assigned[i] = true
+			}
+		}
+		union := map[int32]bool{}
+		for _, i := range group {
+			for _, r := range p.Col(int(i)) {
+				union[r] = true
+			}
+		}
+		var u []int32
+		for r := range union {
+			u = append(u, r)
+		}
+		slices.Sort(u)
+		slices.Sort(group)
+		members, rows = append(members, group), append(rows, u)
+	}
+	return members, rows
+}
+
+func TestAggregateAgainstDefinition(t *testing.T) {
+	for _, set := range orderedSets(600, 2) {
+		for _, rho := range []float64{2, 3} {
+			for _, lambda := range []float64{1, 1.5, 2} {
+				t.Run(fmt.Sprintf("%s/rho=%g/lambda=%g", set.name, rho, lambda), func(t *testing.T) {
+					pat := Radius(set.points, set.d, set.lengthScale, rho)
+					sn := Aggregate(pat, set.lengthScale, lambda)
+					var wantMembers, wantRows [][]int32
+					if lambda <= 1 {
+						for j := range pat.N() {
+							wantMembers = append(wantMembers, []int32{int32(j)})
+							wantRows = append(wantRows, pat.Col(j))
+						}
+					} else {
+						wantMembers, wantRows = bruteAggregate(pat, set.lengthScale, lambda)
+					}
+					if sn.Len() != len(wantMembers) {
+						t.Fatalf("%d supernodes, want %d", sn.Len(), len(wantMembers))
+					}
+					for s := range sn.Len() {
+						if !slices.Equal(sn.MembersOf(s), wantMembers[s]) || !slices.Equal(sn.RowsOf(s), wantRows[s]) {
+							t.Fatalf("supernode %d: members %v rows %v, want %v %v", s, sn.MembersOf(s), sn.RowsOf(s), wantMembers[s], wantRows[s])
+						}
+					}
+					// The induced pattern contains the original one column by column.
+					induced := sn.Pattern()
+					for j := range pat.N() {
+						for _, r := range pat.Col(j) {
+							if _, ok := slices.BinarySearch(induced.Col(j), r); !ok {
+								t.Fatalf("column %d lost row %d", j, r)
+							}
+						}
+						if induced.Col(j)[0] != int32(j) {
+							t.Fatalf("induced column %d does not start on its diagonal", j)
+						}
+					}
+				})
+			}
+		}
+	}
+}
+
+func TestAggregateInfiniteLengthScale(t *testing.T) {
+	// The coarsest point has ℓ = +Inf; λ·∞ = ∞ must not capture finite columns wrongly, and the
+	// column must still form a supernode.
+	points := []float64{0, 0, 1, 0, 0, 1, 1, 1, 0.5, 0.5}
+	ord := ReverseMaximin(points, 2, nil)
+	if !math.IsInf(ord.LengthScale[len(ord.LengthScale)-1], 1) {
+		t.Fatal("expected +Inf for the coarsest point")
+	}
+	pat := Radius(permutePoints(points, 2, ord.Order), 2, ord.LengthScale, 2)
+	sn := Aggregate(pat, ord.LengthScale, 1.5)
+	seen := make([]bool, len(ord.Order))
+	for s := range sn.Len() {
+		for _, j := range sn.MembersOf(s) {
+			if seen[j] {
+				t.Fatalf("column %d in two supernodes", j)
+			}
+			seen[j] = true
+		}
+	}
+	for j, ok := range seen {
+		if !ok {
+			t.Fatalf("column %d in no supernode", j)
+		}
+	}
+}
