@@ -33,10 +33,12 @@ func ReverseMaximin(points []float64, d int, boundary []float64) Ordering {
 // boundary, ties by lowest input index; its length scale ℓ is that distance. The result is
 // exact (the same as the O(N²) definition, distances as in the package comment).
 //
-// The algorithm keeps every unpicked point's distance to the picked set in an index-tracked
-// max-heap; after picking p only points within ℓ_p of p can come closer, found by one radius
-// query (Schäfer, Sullivan, Owhadi 2021). Cost O(N log² N) time for well-spread data,
-// O(N) memory. Sequential: Workers is not used. Inputs are not modified.
+// The algorithm keeps every unpicked point's distance to the picked set ∪ boundary in a
+// priority structure; after picking p only points within ℓ_p of p can come closer
+// (Schäfer, Sullivan, Owhadi 2021). With the default flat kd-tree the tree itself is the
+// priority structure (maximinTournament); other searchers use an index-tracked max-heap and one
+// radius query per pick (maximinHeapSearch). Both give the same result. Cost O(N log² N) time
+// for well-spread data, O(N) memory. Sequential: Workers is not used. Inputs are not modified.
 //
 // Panics if d < 1, len(points)%d != 0, len(boundary)%d != 0, n ≥ 2³¹−1 or a coordinate is
 // not finite.
@@ -51,9 +53,6 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 		return ord
 	}
 	point := func(i int32) []float64 { return points[int(i)*d : int(i+1)*d] }
-	var w searchWork
-	var buf []int32
-	h := maximinHeap{entries: make([]maximinEntry, 0, n), pos: make([]int32, n)}
 	nextPosition := n - 1
 	record := func(i int32, scale float64) {
 		ord.Order[nextPosition] = int(i)
@@ -61,11 +60,16 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 		nextPosition--
 	}
 
+	// initial[i] is point i's distance to the boundary, or to the first pick; −Inf marks the
+	// first pick itself as picked.
+	initial := make([]float64, n)
 	if nb := len(boundary) / d; nb > 0 {
+		var w searchWork
+		var nearest []int32
 		bt := newSearcher(s.search, boundary, d, 0, nb)
 		for i := range int32(n) {
-			buf = bt.knn(buf[:0], point(i), 1, 0, &w)
-			h.entries = append(h.entries, maximinEntry{distance(point(i), boundary[int(buf[0])*d:int(buf[0]+1)*d]), i})
+			nearest = bt.knn(nearest[:0], point(i), 1, 0, &w)
+			initial[i] = distance(point(i), boundary[int(nearest[0])*d:int(nearest[0]+1)*d])
 		}
 	} else {
 		// Centroid as the coordinate-wise mean, summed in input order.
@@ -85,16 +89,36 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 			}
 		}
 		record(first, math.Inf(1))
-		h.pos[first] = -1
 		for i := range int32(n) {
-			if i != first {
-				h.entries = append(h.entries, maximinEntry{distance(point(i), point(first)), i})
-			}
+			initial[i] = distance(point(i), point(first))
+		}
+		initial[first] = math.Inf(-1)
+	}
+
+	if s.search == searchFlat {
+		maximinTournament(newFlatTree(points, d, 0, n), initial, record)
+	} else {
+		maximinHeapSearch(newSearcher(s.search, points, d, 0, n), points, d, initial, record)
+	}
+	return ord
+}
+
+// maximinHeapSearch picks the remaining points with an index-tracked max-heap of distances and
+// one radius query per pick through the searcher interface. initial holds the starting
+// distances, −Inf for points already picked.
+func maximinHeapSearch(tree searcher, points []float64, d int, initial []float64, record func(int32, float64)) {
+	n := len(initial)
+	h := maximinHeap{entries: make([]maximinEntry, 0, n), pos: make([]int32, n)}
+	for i, dist := range initial {
+		if math.IsInf(dist, -1) {
+			h.pos[i] = -1
+		} else {
+			h.entries = append(h.entries, maximinEntry{dist, int32(i)})
 		}
 	}
 	h.init()
-
-	tree := newSearcher(s.search, points, d, 0, n)
+	var w searchWork
+	var buf []int32
 	for len(h.entries) > 0 {
 		p := h.pop()
 		record(p.index, p.dist)
@@ -102,12 +126,113 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 			// Every unpicked distance is ≤ p.dist = 0 already: nothing can come closer.
 			continue
 		}
-		buf = tree.radius(buf[:0], point(p.index), p.dist, 0, &w)
+		buf = tree.radius(buf[:0], points[int(p.index)*d:int(p.index+1)*d], p.dist, 0, &w)
 		for k, i := range buf {
 			h.decrease(i, w.distances[k])
 		}
 	}
-	return ord
+}
+
+// maximinTournament picks the remaining points using the flat kd-tree itself as the priority
+// structure: every node keeps the best unpicked point below it by (distance descending, index
+// ascending), so the next pick is read at the root, and the update after a pick descends only
+// into nodes whose box is nearer to the pick than their best distance (a point can come closer
+// only if its new distance beats its old one, which is at most the node's best). Slots are in
+// tree order, so the updates touch memory locally. initial holds the starting distances by
+// input index, −Inf for points already picked.
+func maximinTournament(t *flatTree, initial []float64, record func(int32, float64)) {
+	m := tournament{
+		t:    t,
+		dist: make([]float64, len(t.index)),
+		best: make([]tournamentBest, len(t.nodes)),
+	}
+	for s, i := range t.index {
+		m.dist[s] = initial[i]
+	}
+	// Children have larger ids than their parent (pre-order build): refresh bottom-up.
+	for b := len(t.nodes) - 1; b >= 0; b-- {
+		m.refresh(int32(b))
+	}
+	d := t.d
+	for len(t.nodes) > 0 && m.best[0].slot >= 0 {
+		top := m.best[0]
+		record(top.index, top.dist)
+		m.dist[top.slot] = math.Inf(-1)
+		m.update(0, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot)
+	}
+}
+
+type tournament struct {
+	t    *flatTree
+	dist []float64        // by tree slot; −Inf once picked
+	best []tournamentBest // by node: the unpicked point to pick first below it
+}
+
+// tournamentBest describes a node's best point, copied so that comparisons between siblings
+// read only node data.
+type tournamentBest struct {
+	dist  float64
+	slot  int32 // −1 if every point below the node is picked
+	index int32 // input index
+}
+
+// before reports whether a is to be picked before b: larger distance, then lower index; a
+// missing entry (slot −1) is never picked before a present one.
+func (a tournamentBest) before(b tournamentBest) bool {
+	if b.slot < 0 {
+		return a.slot >= 0
+	}
+	if a.slot < 0 {
+		return false
+	}
+	return a.dist > b.dist || (a.dist == b.dist && a.index < b.index)
+}
+
+func (m *tournament) refresh(b int32) {
+	node := m.t.nodes[b]
+	best := tournamentBest{slot: -1}
+	if node.left < 0 {
+		for s := node.start; s < node.end; s++ {
+			if dist := m.dist[s]; !math.IsInf(dist, -1) {
+				if c := (tournamentBest{dist, s, m.t.index[s]}); c.before(best) {
+					best = c
+				}
+			}
+		}
+	} else {
+		best = m.best[node.left]
+		if r := m.best[node.right]; r.before(best) {
+			best = r
+		}
+	}
+	m.best[b] = best
+}
+
+// update lowers the distances below node b to account for the new pick at x (slot picked) and
+// refreshes the nodes it visits, always including those on the path to picked.
+func (m *tournament) update(b int32, x []float64, picked int32) {
+	t := m.t
+	node := t.nodes[b]
+	if picked < node.start || picked >= node.end {
+		best := m.best[b]
+		if best.slot < 0 || best.dist <= 0 || t.lowerBound(b, x) > pruneBound(best.dist) {
+			return
+		}
+	}
+	if node.left < 0 {
+		d := t.d
+		for s := node.start; s < node.end; s++ {
+			if m.dist[s] > 0 {
+				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < m.dist[s] {
+					m.dist[s] = dist
+				}
+			}
+		}
+	} else {
+		m.update(node.left, x, picked)
+		m.update(node.right, x, picked)
+	}
+	m.refresh(b)
 }
 
 // maximinHeap is a binary max-heap of unpicked points ordered by (distance descending, index

@@ -3,6 +3,7 @@ package ordering
 import (
 	"fmt"
 	"math"
+	"math/bits"
 	"runtime"
 	"slices"
 
@@ -97,7 +98,13 @@ func (s Settings) Radius(points []float64, d int, lengthScale []float64, rho flo
 		slices.Sort(dst[start:])
 		return dst
 	}
-	return buildPattern(n, workers, column)
+	order := queryOrder(n, trees, func(j int) int {
+		if math.IsInf(lengthScale[j], 1) {
+			return 0
+		}
+		return n - j
+	})
+	return buildPattern(n, workers, order, column)
 }
 
 // NearestNeighbors returns the nearest-neighbour pattern with the default Settings. See
@@ -129,29 +136,61 @@ func (s Settings) NearestNeighbors(points []float64, d int, m int) *Pattern {
 		slices.Sort(dst[start:])
 		return dst
 	}
-	return buildPattern(n, workers, column)
+	order := queryOrder(n, trees, func(j int) int { return n - 1 - j })
+	return buildPattern(n, workers, order, column)
 }
 
 const (
-	// patternChunk is the number of consecutive columns one task computes. Fixed, so the
-	// split does not depend on the worker count.
+	// patternChunk is the number of columns one task computes. Fixed, so the split does not
+	// depend on the worker count.
 	patternChunk = 1024
 	// patternSerialBelow is the column count below which patterns are built on one goroutine.
 	patternSerialBelow = 4 * patternChunk
 )
 
-// buildPattern computes the n columns in chunks, in parallel, and concatenates them in order.
-// column appends column j's rows to dst using the workspace w.
-func buildPattern(n, workers int, column func(dst []int32, j int, w *searchWork) []int32) *Pattern {
+// queryOrder returns the columns 0…n−1 in the order to compute them: grouped by the suffix tree
+// their query uses and, within a group, in that tree's slot order when it is a flat kd-tree, so
+// that consecutive queries touch the same parts of the tree. The order changes only speed,
+// never the pattern. count(j) is the number of positions column j searches (0: no search).
+func queryOrder(n int, trees *suffixTrees, count func(j int) int) []int32 {
+	order := make([]int32, 0, n)
+	done := make([]bool, n)
+	if trees != nil {
+		for k, tree := range trees.trees {
+			flat, ok := tree.(*flatTree)
+			if !ok {
+				continue
+			}
+			for _, j := range flat.index {
+				if c := count(int(j)); !done[j] && c > 0 && bits.Len(uint(c-1)) == k {
+					order = append(order, j)
+					done[j] = true
+				}
+			}
+		}
+	}
+	for j := range n {
+		if !done[j] {
+			order = append(order, int32(j))
+		}
+	}
+	return order
+}
+
+// buildPattern computes the n columns in the given order, in chunks, in parallel, and
+// assembles them in position order. column appends column j's rows to dst using the
+// workspace w.
+func buildPattern(n, workers int, order []int32, column func(dst []int32, j int, w *searchWork) []int32) *Pattern {
 	chunks := (n + patternChunk - 1) / patternChunk
 	rows := make([][]int32, chunks)
 	colLen := make([]int32, n)
+	colOffset := make([]int64, n) // offset of column j's rows in its chunk's buffer
 	task := func(c int, w *searchWork) {
 		var buf []int32
-		for j := c * patternChunk; j < min(n, (c+1)*patternChunk); j++ {
+		for _, j := range order[c*patternChunk : min(n, (c+1)*patternChunk)] {
 			before := len(buf)
-			buf = column(buf, j, w)
-			colLen[j] = int32(len(buf) - before)
+			buf = column(buf, int(j), w)
+			colOffset[j], colLen[j] = int64(before), int32(len(buf)-before)
 		}
 		rows[c] = buf
 	}
@@ -181,9 +220,12 @@ func buildPattern(n, workers int, column func(dst []int32, j int, w *searchWork)
 	for j, l := range colLen {
 		p.ColStart[j+1] = p.ColStart[j] + int64(l)
 	}
-	p.Rows = make([]int32, 0, p.ColStart[n])
-	for _, r := range rows {
-		p.Rows = append(p.Rows, r...)
+	p.Rows = make([]int32, p.ColStart[n])
+	for c := range chunks {
+		for _, j := range order[c*patternChunk : min(n, (c+1)*patternChunk)] {
+			copy(p.Rows[p.ColStart[j]:p.ColStart[j+1]], rows[c][colOffset[j]:])
+		}
+		rows[c] = nil
 	}
 	return p
 }
