@@ -437,12 +437,21 @@ func (f *Factor) compute(ctx context.Context, workers int, report func(Progress)
 
 // workspace is one worker's scratch memory.
 type workspace struct {
-	block []float64
-	index []int32
+	block  []float64
+	vector []float64
+	index  []int32
 }
 
 func newWorkspace(maxRows int) *workspace {
-	return &workspace{block: make([]float64, maxRows*maxRows), index: make([]int32, maxRows)}
+	return &workspace{block: make([]float64, maxRows*maxRows), vector: make([]float64, maxRows), index: make([]int32, maxRows)}
+}
+
+// axpyNegative sets y −= a·x; len(x) must equal len(y).
+func axpyNegative(y []float64, a float64, x []float64) {
+	x = x[:len(y)]
+	for i := range y {
+		y[i] -= a * x[i]
+	}
 }
 
 // jitters are the diagonal shifts, relative to the largest diagonal entry of the local block,
@@ -482,12 +491,21 @@ func (f *Factor) supernode(s int, w *workspace) (int, error) {
 		for _, k := range members {
 			_, vals := f.col(int(k))
 			m := len(vals) // = u − t
-			// vals[q] is the entry on row U[t+q], reversed index m−1−q: a vector of
-			// length m with increment −1 over vals; e_{m−1} is vals[0].
-			clear(vals)
-			vals[0] = 1
-			lead := blas64.Triangular{Uplo: blas.Lower, Diag: blas.NonUnit, N: m, Stride: u, Data: c.Data}
-			blas64.Trsv(blas.Trans, lead, blas64.Vector{N: m, Inc: -1, Data: vals})
+			// Solve C_mᵀ v = e_{m−1} with C_m the leading m×m block of C (reversed
+			// indices), by columns of Cᵀ, i.e. contiguous rows of C: for k = m−1 … 0,
+			// v_k = w_k / C_kk and w_{0:k} −= v_k·C_{k,0:k}. Then vals[q] = v_{m−1−q}.
+			v := w.vector[:m]
+			clear(v)
+			v[m-1] = 1
+			for r := m - 1; r >= 0; r-- {
+				row := c.Data[r*u : r*u+r+1]
+				vr := v[r] / row[r]
+				v[r] = vr
+				axpyNegative(v[:r], vr, row[:r])
+			}
+			for q := range vals {
+				vals[q] = v[m-1-q]
+			}
 			for _, x := range vals {
 				if math.IsNaN(x) || math.IsInf(x, 0) {
 					return 0, fmt.Errorf("cholesky: column of point %d is not finite", f.order[k])

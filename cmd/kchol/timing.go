@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"runtime"
+	"runtime/pprof"
 	"strconv"
 	"strings"
 	"time"
@@ -24,6 +25,7 @@ type timingOptions struct {
 	seed                     uint64
 	potrfTime                time.Duration
 	quiet                    bool
+	cpuProfile               string
 }
 
 func timingCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -41,6 +43,7 @@ func timingCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Wri
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
 	fs.DurationVar(&o.potrfTime, "potrf-time", time.Second, "how long to measure gonum's Potrf at the median supernode size")
 	fs.BoolVar(&o.quiet, "quiet", false, "print no progress")
+	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the run to `file` (for go tool pprof)")
 	return fs, func(ctx context.Context, fs *flag.FlagSet, stdout, stderr io.Writer) error {
 		return runTiming(ctx, fs, o, stdout, stderr)
 	}
@@ -81,9 +84,22 @@ func runTiming(ctx context.Context, fs *flag.FlagSet, o *timingOptions, stdout, 
 	k := kernels.Stationary{Family: family, Dimension: o.d, LengthScale: o.lengthScale}
 	progress := newProgress(stderr, o.quiet)
 	s.Progress = progress.report
+	if o.cpuProfile != "" {
+		out, err := os.Create(o.cpuProfile)
+		if err != nil {
+			return err
+		}
+		defer out.Close()
+		if err := pprof.StartCPUProfile(out); err != nil {
+			return err
+		}
+	}
 	start := time.Now()
 	f, err := cholesky.New(ctx, points, o.d, k, s)
 	total := time.Since(start)
+	if o.cpuProfile != "" {
+		pprof.StopCPUProfile()
+	}
 	progress.finish()
 	if err != nil {
 		return err
