@@ -19,6 +19,9 @@ import (
 type solveOptions struct {
 	factor, rhs, output string
 	workers             int
+	// tol and maxIterations select the exact iterative solve (solveexact.go).
+	tol           float64
+	maxIterations int
 }
 
 func solveCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -27,13 +30,15 @@ func solveCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writ
 	fs.StringVar(&o.factor, "factor", "", "factor `file` written by kchol factor (required)")
 	fs.StringVar(&o.rhs, "rhs", "", "CSV `file` of right-hand sides, one column each, rows in the order of the points, with a header row (required)")
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
+	fs.Float64Var(&o.tol, "tol", 0, "solve the exact system Θ X = B by conjugate gradients, with the factor as preconditioner, to this relative `residual` (0: apply the factor only, X = L Lᵀ B); costs O(N²) per iteration")
+	fs.IntVar(&o.maxIterations, "max-iterations", cholesky.DefaultMaxIterations, "iteration limit of -tol, per right-hand side")
 	fs.StringVar(&o.output, "o", "", "CSV `file` to write the solutions to, with the header of -rhs (required)")
 	return fs, func(ctx context.Context, fs *flag.FlagSet, stdout, stderr io.Writer) error {
-		return runSolve(fs, o, stderr)
+		return runSolve(ctx, fs, o, stderr)
 	}
 }
 
-func runSolve(fs *flag.FlagSet, o *solveOptions, stderr io.Writer) error {
+func runSolve(ctx context.Context, fs *flag.FlagSet, o *solveOptions, stderr io.Writer) error {
 	set := flagsSet(fs)
 	for _, name := range []string{"factor", "rhs", "o"} {
 		if !set[name] || (name == "o" && o.output == "") {
@@ -42,6 +47,9 @@ func runSolve(fs *flag.FlagSet, o *solveOptions, stderr io.Writer) error {
 	}
 	if o.workers < 0 {
 		return usagef("solve: -workers %d, want ≥ 0", o.workers)
+	}
+	if err := checkExactFlags(o, set); err != nil {
+		return err
 	}
 	start := time.Now()
 	f, err := cholesky.ReadFile(o.factor)
@@ -66,7 +74,15 @@ func runSolve(fs *flag.FlagSet, o *solveOptions, stderr io.Writer) error {
 	readRHSTime := time.Since(start)
 
 	start = time.Now()
-	x := f.SolveColumnsTo(nil, mat.NewDense(b.rows, b.cols, b.values), o.workers)
+	var x *mat.Dense
+	var exactNote string
+	if o.tol > 0 {
+		if x, exactNote, err = solveExact(ctx, f, mat.NewDense(b.rows, b.cols, b.values), o, b.header); err != nil {
+			return err
+		}
+	} else {
+		x = f.SolveColumnsTo(nil, mat.NewDense(b.rows, b.cols, b.values), o.workers)
+	}
 	solveTime := time.Since(start)
 
 	start = time.Now()
@@ -76,6 +92,7 @@ func runSolve(fs *flag.FlagSet, o *solveOptions, stderr io.Writer) error {
 	writeTime := time.Since(start)
 	fmt.Fprintf(stderr, "kchol solve: %s, %d right-hand sides; seconds: read factor %s, read rhs %s, solve %s, write %s%s\n",
 		describe(f), b.cols, seconds(readFactorTime), seconds(readRHSTime), seconds(solveTime), seconds(writeTime), jitterNote(f))
+	fmt.Fprint(stderr, exactNote)
 	return nil
 }
 
