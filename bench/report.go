@@ -171,6 +171,7 @@ func (r *Report) WriteMarkdown(w io.Writer) error {
 		p("\n")
 	}
 	r.markdownKLPerPoint(p)
+	r.markdownGreedy(p)
 	for _, ps := range c.PointSets {
 		for _, kn := range c.Kernels {
 			var rows []FactorRow
@@ -424,4 +425,39 @@ func writeFileAtomic(path string, write func(io.Writer) error) (err error) {
 		return err
 	}
 	return os.Rename(tmp.Name(), path)
+}
+
+// markdownGreedy writes KL(nearest neighbours)/KL(greedy) at equal m, where both were run.
+func (r *Report) markdownGreedy(p func(string, ...any)) {
+	type key struct {
+		ps, kn string
+		m      float64
+	}
+	nearest := map[key]FactorRow{}
+	for _, x := range r.Factors {
+		if x.Pattern == "neighbors" {
+			nearest[key{x.PointSet, x.Kernel, x.Parameter}] = x
+		}
+	}
+	var lines []string
+	for _, x := range r.Factors {
+		if x.Pattern != "greedy" {
+			continue
+		}
+		nn, ok := nearest[key{x.PointSet, x.Kernel, x.Parameter}]
+		if !ok {
+			continue
+		}
+		lines = append(lines, fmt.Sprintf("| %s | %s | %g | %.1f | %.1f | %s | %s | %.2f | %.3f | %.3f |\n", x.PointSet, x.Kernel, x.Parameter,
+			nn.NNZPerColumn, x.NNZPerColumn, g(nn.KL), g(x.KL), nn.KL/x.KL, nn.TotalSeconds, x.TotalSeconds))
+	}
+	if len(lines) == 0 {
+		return
+	}
+	p("## Greedy selection against nearest neighbours at equal m\n\n")
+	p("| points | kernel | m | nnz/col nearest | nnz/col greedy | KL nearest | KL greedy | KL ratio | total s nearest | total s greedy |\n|---|---|---|---|---|---|---|---|---|---|\n")
+	for _, l := range lines {
+		p("%s", l)
+	}
+	p("\n")
 }

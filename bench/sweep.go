@@ -35,6 +35,12 @@ type Config struct {
 	Rhos []float64 `json:"rhos"`
 	// Neighbors m of the nearest-neighbour pattern. nil means 5, 10, 20, 30, 50.
 	Neighbors []int `json:"neighbors"`
+	// Greedy are the m of the greedy pattern (cholesky.Settings.Greedy, 4m candidates). nil
+	// means 10, 20, 30; an empty list none.
+	Greedy []int `json:"greedy"`
+	// Lambda is the supernode aggregation λ of every factor. 0 means the library default
+	// (1.5); 1 means none.
+	Lambda float64 `json:"lambda"`
 	// Nystrom enables the equal-memory Nyström baseline. nil means true.
 	Nystrom *bool `json:"nystrom"`
 	// CGCases are "pointset/kernel" cases with conjugate-gradient comparisons. nil means
@@ -82,6 +88,9 @@ func (c Config) WithDefaults() Config {
 	}
 	if c.Rhos == nil {
 		c.Rhos = []float64{1, 2, 3, 4, 5, 6, 7, 8}
+	}
+	if c.Greedy == nil {
+		c.Greedy = []int{10, 20, 30}
 	}
 	if c.Neighbors == nil {
 		c.Neighbors = []int{5, 10, 20, 30, 50}
@@ -152,10 +161,13 @@ func (c Config) Validate() error {
 			return fmt.Errorf("bench: ρ = %v, want > 0", r)
 		}
 	}
-	for _, m := range c.Neighbors {
+	for _, m := range append(append([]int(nil), c.Neighbors...), c.Greedy...) {
 		if m < 1 {
 			return fmt.Errorf("bench: m = %d, want ≥ 1", m)
 		}
+	}
+	if c.Lambda != 0 && !(c.Lambda >= 1) {
+		return fmt.Errorf("bench: λ = %v, want 0 (default), 1 (none) or > 1", c.Lambda)
 	}
 	for _, cs := range c.CGCases {
 		p, k, ok := strings.Cut(cs, "/")
@@ -208,7 +220,7 @@ type FactorRow struct {
 	PointSet string `json:"point_set"`
 	Kernel   string `json:"kernel"`
 	N        int    `json:"n"`
-	// Pattern is "radius" or "neighbors"; Parameter is ρ or m.
+	// Pattern is "radius", "neighbors" or "greedy"; Parameter is ρ or m.
 	Pattern      string  `json:"pattern"`
 	Parameter    float64 `json:"parameter"`
 	NNZPerColumn float64 `json:"nnz_per_column"`
@@ -363,8 +375,11 @@ func timedFactor(ctx context.Context, points []float64, d int, k kernels.Kernel,
 }
 
 func patternName(s cholesky.Settings) string {
-	if s.Rho > 0 {
+	switch {
+	case s.Rho > 0:
 		return fmt.Sprintf("rho=%g", s.Rho)
+	case s.Greedy:
+		return fmt.Sprintf("greedy-m=%d", s.Neighbors)
 	}
 	return fmt.Sprintf("m=%d", s.Neighbors)
 }
@@ -399,10 +414,13 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 
 	var patterns []cholesky.Settings
 	for _, r := range c.Rhos {
-		patterns = append(patterns, cholesky.Settings{Rho: r, Workers: c.Workers})
+		patterns = append(patterns, cholesky.Settings{Rho: r, Lambda: c.Lambda, Workers: c.Workers})
 	}
 	for _, m := range c.Neighbors {
-		patterns = append(patterns, cholesky.Settings{Neighbors: m, Workers: c.Workers})
+		patterns = append(patterns, cholesky.Settings{Neighbors: m, Lambda: c.Lambda, Workers: c.Workers})
+	}
+	for _, m := range c.Greedy {
+		patterns = append(patterns, cholesky.Settings{Neighbors: m, Greedy: true, Lambda: c.Lambda, Workers: c.Workers})
 	}
 	factors := map[string]*cholesky.Factor{}
 	var rows []FactorRow
@@ -423,9 +441,12 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 			TotalSeconds: elapsed.Seconds(), DenseSeconds: ref.FactorTime.Seconds(),
 			FactorBytes: FactorBytes(f), AllocatedBytes: alloc,
 		}
-		if s.Rho > 0 {
+		switch {
+		case s.Rho > 0:
 			row.Pattern, row.Parameter = "radius", s.Rho
-		} else {
+		case s.Greedy:
+			row.Pattern, row.Parameter = "greedy", float64(s.Neighbors)
+		default:
 			row.Pattern, row.Parameter = "neighbors", float64(s.Neighbors)
 		}
 		row.SpeedUp = row.DenseSeconds / row.TotalSeconds
@@ -611,10 +632,13 @@ func norm(v []float64) float64 {
 	return math.Sqrt(s)
 }
 
-// Name returns the pattern as "rho=3" or "m=30".
+// Name returns the pattern as "rho=3", "m=30" or "greedy-m=30".
 func (r FactorRow) Name() string {
-	if r.Pattern == "radius" {
+	switch r.Pattern {
+	case "radius":
 		return fmt.Sprintf("rho=%g", r.Parameter)
+	case "greedy":
+		return fmt.Sprintf("greedy-m=%g", r.Parameter)
 	}
 	return fmt.Sprintf("m=%g", r.Parameter)
 }

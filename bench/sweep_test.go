@@ -202,7 +202,7 @@ func TestRunWritesReport(t *testing.T) {
 	// End to end on a tiny sweep: every file is written, the tables read back with
 	// encoding/csv and encoding/json, and the Markdown starts with the machine.
 	no := false
-	c := Config{N: 150, PointSets: []string{"uniform", "clustered"}, Kernels: []string{"matern12", "gaussian"}, Rhos: []float64{2, 3}, Neighbors: []int{5},
+	c := Config{N: 150, PointSets: []string{"uniform", "clustered"}, Kernels: []string{"matern12", "gaussian"}, Rhos: []float64{2, 3}, Neighbors: []int{5}, Greedy: []int{5},
 		Nystrom: &no, CGCases: []string{"uniform/matern12"}, ScalingN: []int{300, 600}, ExactSolveN: []int{200}, ExactResidualLimit: 600}
 	if !testing.Short() {
 		yes := true
@@ -212,7 +212,7 @@ func TestRunWritesReport(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got, want := len(rep.Factors), 2*2*3; got != want {
+	if got, want := len(rep.Factors), 2*2*4; got != want {
 		t.Fatalf("%d factor rows, want %d (notes %v)", got, want, rep.Notes)
 	}
 	dir := t.TempDir()
@@ -225,6 +225,13 @@ func TestRunWritesReport(t *testing.T) {
 	}
 	if !strings.HasPrefix(string(md), "# kchol accuracy and timing report\n\nMachine: ") {
 		t.Errorf("report starts %q", string(md[:80]))
+	}
+	// One greedy-against-nearest row per point set and kernel (both at m = 5).
+	if i := strings.Index(string(md), "## Greedy selection against nearest neighbours at equal m"); i < 0 {
+		t.Error("report has no greedy comparison")
+	} else if rows := strings.Count(strings.SplitN(string(md[i:]), "\n\n", 3)[1], "\n| "); rows != 2*2 {
+		// Data rows follow the header and the |---| line, each after a newline.
+		t.Errorf("greedy comparison has %d rows, want %d", rows, 2*2)
 	}
 	file, err := os.Open(filepath.Join(dir, "factors.csv"))
 	if err != nil {

@@ -11,7 +11,7 @@ package cholesky
 //
 //	offset  size      type     field
 //	0       8         bytes    magic: the ASCII bytes "KCHOLFAC"
-//	8       4         uint32   format version, 1
+//	8       4         uint32   format version, 2 (version 1 files, with bytes 50–55 zero, are read too)
 //	12      4         uint32   d, the dimension of the points, 1 ≤ d ≤ 65536
 //	16      8         uint64   N, the number of points, 1 ≤ N < 2³¹−1
 //	24      8         uint64   nnz, the number of stored entries of L, N ≤ nnz ≤ min(N(N+1)/2, 2⁵⁶)
@@ -22,7 +22,10 @@ package cholesky
 //	48      1         uint8    kernel family: 1 Matérn 1/2, 2 Matérn 3/2, 3 Matérn 5/2, 4 Gaussian
 //	49      1         uint8    length-scale kind: 0 one length scale shared by all dimensions
 //	                           (s = 1), 1 one per dimension (s = d)
-//	50      6         -        reserved, all zero
+//	50      1         uint8    selection of the nearest-neighbour pattern: 0 the m nearest, 1 greedy
+//	                           (version 2; 0 in version 1)
+//	51      1         -        reserved, zero
+//	52      4         uint32   candidates c of the greedy selection; 0 unless greedy (version 2)
 //	56      8         float64  variance σ² (0 means 1, as in kernels.Stationary)
 //	64      8         float64  nugget, ≥ 0
 //	72      8·s       float64  the length scale(s) of the kernel, finite and > 0
@@ -56,7 +59,7 @@ import (
 
 // FormatVersion is the version of the binary factor file that WriteTo writes and Read reads.
 // WriteTo's doc comment gives the layout.
-const FormatVersion = 1
+const FormatVersion = 2
 
 // fileMagic opens every factor file.
 const fileMagic = "KCHOLFAC"
@@ -106,7 +109,7 @@ func fileSize(n, d, nnz, scales uint64) uint64 {
 //
 //	offset  size      type     field
 //	0       8         bytes    magic: the ASCII bytes "KCHOLFAC"
-//	8       4         uint32   format version, 1
+//	8       4         uint32   format version, 2 (version 1 files, with bytes 50–55 zero, are read too)
 //	12      4         uint32   d, the dimension of the points, 1 ≤ d ≤ 65536
 //	16      8         uint64   N, the number of points, 1 ≤ N < 2³¹−1
 //	24      8         uint64   nnz, the number of stored entries of L, N ≤ nnz ≤ min(N(N+1)/2, 2⁵⁶)
@@ -117,7 +120,10 @@ func fileSize(n, d, nnz, scales uint64) uint64 {
 //	48      1         uint8    kernel family: 1 Matérn 1/2, 2 Matérn 3/2, 3 Matérn 5/2, 4 Gaussian
 //	49      1         uint8    length-scale kind: 0 one length scale shared by all dimensions
 //	                           (s = 1), 1 one per dimension (s = d)
-//	50      6         -        reserved, all zero
+//	50      1         uint8    selection of the nearest-neighbour pattern: 0 the m nearest, 1 greedy
+//	                           (version 2; 0 in version 1)
+//	51      1         -        reserved, zero
+//	52      4         uint32   candidates c of the greedy selection; 0 unless greedy (version 2)
 //	56      8         float64  variance σ² (0 means 1, as in kernels.Stationary)
 //	64      8         float64  nugget, ≥ 0
 //	72      8·s       float64  the length scale(s) of the kernel, finite and > 0
@@ -159,7 +165,12 @@ func (f *Factor) WriteTo(w io.Writer) (int64, error) {
 	} else {
 		e.bytes([]byte{0})
 	}
-	e.bytes(make([]byte, 6))
+	var greedy byte
+	if f.greedy {
+		greedy = 1
+	}
+	e.bytes([]byte{greedy, 0})
+	e.u32(uint32(f.candidates))
 	e.f64(k.Variance)
 	e.f64(k.Nugget)
 	e.f64s(scales)
@@ -353,8 +364,9 @@ func read(r io.Reader, size int64) (*Factor, error) {
 		return nil, dec.err
 	}
 	le := binary.LittleEndian
-	if v := le.Uint32(h[8:]); v != FormatVersion {
-		return nil, fmt.Errorf("unsupported format version %d (this program reads version %d)", v, FormatVersion)
+	version := le.Uint32(h[8:])
+	if version != 1 && version != FormatVersion {
+		return nil, fmt.Errorf("unsupported format version %d (this program reads versions 1 and %d)", version, FormatVersion)
 	}
 	d64, n64, nnz64 := uint64(le.Uint32(h[12:])), le.Uint64(h[16:]), le.Uint64(h[24:])
 	switch {
@@ -380,8 +392,14 @@ func read(r io.Reader, size int64) (*Factor, error) {
 		return nil, fmt.Errorf("unknown kernel family code %d (want 1 to 4)", h[48])
 	case kind > 1:
 		return nil, fmt.Errorf("unknown length-scale kind %d (want 0 or 1)", kind)
-	case !bytes.Equal(h[50:56], make([]byte, 6)):
+	case version == 1 && !bytes.Equal(h[50:56], make([]byte, 6)):
 		return nil, errors.New("reserved header bytes 50–55 are not zero")
+	case h[50] > 1 || h[51] != 0:
+		return nil, fmt.Errorf("unknown pattern selection %d or reserved byte 51 = %d not zero", h[50], h[51])
+	case h[50] == 1 && neighbors == 0:
+		return nil, errors.New("greedy selection without a number of neighbours m")
+	case h[50] == 0 && le.Uint32(h[52:]) != 0:
+		return nil, fmt.Errorf("%d greedy candidates for a pattern that is not greedy", le.Uint32(h[52:]))
 	}
 	scales := uint64(1)
 	if kind == 1 {
@@ -405,7 +423,8 @@ func read(r io.Reader, size int64) (*Factor, error) {
 	} else if len(ls) == 1 {
 		k.LengthScale = ls[0]
 	}
-	f := &Factor{n: n, d: d, kernel: k, rho: rho, neighbors: int(neighbors), jittered: int(jittered)}
+	f := &Factor{n: n, d: d, kernel: k, rho: rho, neighbors: int(neighbors), jittered: int(jittered),
+		greedy: h[50] == 1, candidates: int(le.Uint32(h[52:]))}
 	f.points = dec.f64s(n*d, "points")
 	order := dec.u32s(n, "order")
 	f.lengthScale = dec.f64s(n, "length scales")

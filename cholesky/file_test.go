@@ -245,7 +245,7 @@ func TestFileLayoutAsDocumented(t *testing.T) {
 	b := encode(t, f)
 	le := binary.LittleEndian
 	l := layoutOf(b)
-	if string(b[:8]) != "KCHOLFAC" || le.Uint32(b[8:]) != 1 {
+	if string(b[:8]) != "KCHOLFAC" || le.Uint32(b[8:]) != 2 {
 		t.Fatalf("magic %q version %d", b[:8], le.Uint32(b[8:]))
 	}
 	if l.d != 2 || l.n != 20 || l.nnz != f.NNZ() {
@@ -255,7 +255,24 @@ func TestFileLayoutAsDocumented(t *testing.T) {
 		t.Fatalf("ρ = %v, m = %d", rho, m)
 	}
 	if b[48] != 3 || b[49] != 1 || !bytes.Equal(b[50:56], make([]byte, 6)) {
-		t.Fatalf("family code %d, kind %d, reserved %v", b[48], b[49], b[50:56])
+		t.Fatalf("family code %d, kind %d, selection, reserved and candidates %v", b[48], b[49], b[50:56])
+	}
+	// A greedy factor records the selection and its candidates.
+	g := encode(t, fileFactor(t, 20, 2, k, &Settings{Neighbors: 4, Greedy: true, Candidates: 9}))
+	if g[50] != 1 || g[51] != 0 || le.Uint32(g[52:]) != 9 {
+		t.Fatalf("greedy header bytes %v, want selection 1 and 9 candidates", g[50:56])
+	}
+	if back, err := Read(bytes.NewReader(g)); err != nil {
+		t.Fatal(err)
+	} else if greedy, c := back.Greedy(); !greedy || c != 9 {
+		t.Fatalf("read back greedy %v with %d candidates", greedy, c)
+	}
+	// A version 1 file (this layout with bytes 50–55 zero) is still read.
+	v1 := bytes.Clone(b)
+	le.PutUint32(v1[8:], 1)
+	le.PutUint32(v1[len(v1)-4:], crc32.Checksum(v1[:len(v1)-4], crc32.MakeTable(crc32.Castagnoli)))
+	if _, err := Read(bytes.NewReader(v1)); err != nil {
+		t.Fatalf("version 1: %v", err)
 	}
 	f64 := func(off int) float64 { return math.Float64frombits(le.Uint64(b[off:])) }
 	if f64(56) != 1.5 || f64(64) != 0.01 || f64(72) != 0.3 || f64(80) != 0.7 {
@@ -383,7 +400,7 @@ func TestReadBadHeader(t *testing.T) {
 		want   string
 	}{
 		{"wrong magic", func(c []byte) { copy(c, "NOTAFILE") }, "bad magic"},
-		{"version 2", func(c []byte) { binary.LittleEndian.PutUint32(c[8:], 2) }, "unsupported format version 2"},
+		{"version 3", func(c []byte) { binary.LittleEndian.PutUint32(c[8:], 3) }, "unsupported format version 3"},
 		{"version 0", func(c []byte) { binary.LittleEndian.PutUint32(c[8:], 0) }, "unsupported format version 0"},
 		{"d=0", func(c []byte) { binary.LittleEndian.PutUint32(c[12:], 0) }, "dimension d = 0"},
 		{"N=0", func(c []byte) { binary.LittleEndian.PutUint64(c[16:], 0) }, "N = 0"},
@@ -399,7 +416,10 @@ func TestReadBadHeader(t *testing.T) {
 		{"family 0", func(c []byte) { c[48] = 0 }, "unknown kernel family code 0"},
 		{"family 5", func(c []byte) { c[48] = 5 }, "unknown kernel family code 5"},
 		{"kind 2", func(c []byte) { c[49] = 2 }, "unknown length-scale kind 2"},
-		{"reserved", func(c []byte) { c[53] = 1 }, "reserved header bytes"},
+		{"reserved", func(c []byte) { c[51] = 1 }, "reserved byte 51"},
+		{"candidates without greedy", func(c []byte) { c[53] = 1 }, "greedy candidates for a pattern that is not greedy"},
+		{"unknown selection", func(c []byte) { c[50] = 2 }, "unknown pattern selection 2"},
+		{"version 1 with a selection byte", func(c []byte) { binary.LittleEndian.PutUint32(c[8:], 1); c[50] = 1 }, "reserved header bytes 50–55"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

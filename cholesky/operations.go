@@ -33,6 +33,9 @@ func (f *Factor) Rho() float64 { return f.rho }
 // Neighbors returns m of the nearest-neighbour pattern, or 0 for the radius pattern.
 func (f *Factor) Neighbors() int { return f.neighbors }
 
+// Greedy reports whether the rows were chosen greedily, and among how many candidates.
+func (f *Factor) Greedy() (greedy bool, candidates int) { return f.greedy, f.candidates }
+
 // Lambda returns the supernode aggregation parameter λ used (1: no aggregation).
 func (f *Factor) Lambda() float64 { return f.lambda }
 

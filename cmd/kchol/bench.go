@@ -15,12 +15,12 @@ import (
 
 // benchOptions are the flags of kchol bench.
 type benchOptions struct {
-	config, output                                                 string
-	pointSets, kernels, rhos, neighbors, cgCases, scalingN, exactN string
-	n, denseLimit, workers                                         int
-	lengthScale                                                    float64
-	seed                                                           uint64
-	nystrom                                                        bool
+	config, output                                                         string
+	pointSets, kernels, rhos, neighbors, greedy, cgCases, scalingN, exactN string
+	n, denseLimit, workers                                                 int
+	lengthScale, lambda                                                    float64
+	seed                                                                   uint64
+	nystrom                                                                bool
 }
 
 func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -34,6 +34,8 @@ func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writ
 	fs.Float64Var(&o.lengthScale, "lengthscale", 0.1, "length `scale` of every kernel")
 	fs.StringVar(&o.rhos, "rho", "1,2,3,4,5,6,7,8", "comma-separated `values` of ρ for the radius pattern (empty: none)")
 	fs.StringVar(&o.neighbors, "neighbors", "5,10,20,30,50", "comma-separated `values` of m for the nearest-neighbour pattern (empty: none)")
+	fs.StringVar(&o.greedy, "greedy", "10,20,30", "comma-separated `values` of m for the greedy pattern, 4m candidates (empty: none)")
+	fs.Float64Var(&o.lambda, "lambda", 0, "supernode aggregation `λ` of every factor (0: the default 1.5; 1: none)")
 	fs.BoolVar(&o.nystrom, "nystrom", true, "compare with the equal-memory Nyström baseline")
 	fs.StringVar(&o.cgCases, "cg", "uniform/matern32", "comma-separated pointset/kernel `cases` with conjugate-gradient comparisons (empty: none)")
 	fs.StringVar(&o.scalingN, "scaling-n", "1000,2000,4000,8000,16000,100000,1000000", "comma-separated `sizes` of the time-against-N sweep (empty: none)")
@@ -87,6 +89,14 @@ func benchConfig(fs *flag.FlagSet, o *benchOptions) (bench.Config, error) {
 		if c.Neighbors, err = parseList(o.neighbors, "neighbors", strconv.Atoi); err != nil {
 			return c, err
 		}
+	}
+	if use("greedy") {
+		if c.Greedy, err = parseList(o.greedy, "greedy", strconv.Atoi); err != nil {
+			return c, err
+		}
+	}
+	if use("lambda") {
+		c.Lambda = o.lambda
 	}
 	if use("nystrom") {
 		c.Nystrom = &o.nystrom

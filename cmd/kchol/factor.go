@@ -19,9 +19,9 @@ import (
 type factorOptions struct {
 	points, columns, kernel, lengthScale, output string
 	variance, nugget, rho, lambda                float64
-	neighbors, workers                           int
+	neighbors, workers, candidates               int
 	maxMemory                                    string
-	quiet                                        bool
+	quiet, greedy                                bool
 }
 
 func factorCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -35,6 +35,8 @@ func factorCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Wri
 	fs.Float64Var(&o.nugget, "nugget", 0, "`nugget` added to the diagonal of the kernel matrix, ≥ 0")
 	fs.IntVar(&o.neighbors, "neighbors", cholesky.DefaultNeighbors, "nearest-neighbour pattern (the default) with `m` nearest coarser points per column")
 	fs.Float64Var(&o.rho, "rho", 0, "radius pattern S_ρ with this `ρ` > 0 instead of nearest neighbours (inf: the full, exact factor)")
+	fs.BoolVar(&o.greedy, "greedy", false, "choose each column's m rows greedily among the nearest coarser points, by conditional variance (slower to build, more accurate per nonzero)")
+	fs.IntVar(&o.candidates, "candidates", 0, "with -greedy: the number `c` of nearest coarser points to choose from; 0 means 4m")
 	fs.Float64Var(&o.lambda, "lambda", 1.5, "supernode aggregation `λ`: columns within a factor λ in length scale share one row set; 0 or 1 means none")
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
 	fs.StringVar(&o.maxMemory, "max-memory", "", "refuse to factor when the estimated memory exceeds this `size` (e.g. 4GiB, 500MB, 2e9 bytes; 0: no limit; default 80% of physical memory)")
@@ -76,6 +78,12 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 		return 0, nil, nil, nil, usagef("factor: -neighbors and -rho are mutually exclusive: give one pattern")
 	case set["neighbors"] && o.neighbors < 1:
 		return 0, nil, nil, nil, usagef("factor: -neighbors %d, want ≥ 1", o.neighbors)
+	case set["rho"] && o.greedy:
+		return 0, nil, nil, nil, usagef("factor: -greedy selects among nearest neighbours; it cannot be combined with -rho")
+	case set["candidates"] && !o.greedy:
+		return 0, nil, nil, nil, usagef("factor: -candidates needs -greedy")
+	case o.candidates < 0 || (set["candidates"] && o.candidates < o.neighbors):
+		return 0, nil, nil, nil, usagef("factor: -candidates %d, want at least -neighbors (%d)", o.candidates, o.neighbors)
 	case set["rho"] && !(o.rho > 0):
 		return 0, nil, nil, nil, usagef("factor: -rho %v, want a value > 0 (or inf)", o.rho)
 	case o.workers < 0:
@@ -98,7 +106,7 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 	}
 	// -lambda 0 means no aggregation; in cholesky.Settings that is any value ≤ 1, and 0
 	// means the default.
-	s := &cholesky.Settings{Neighbors: o.neighbors, Lambda: max(1, o.lambda), Workers: o.workers, MaxMemory: limit}
+	s := &cholesky.Settings{Neighbors: o.neighbors, Greedy: o.greedy, Candidates: o.candidates, Lambda: max(1, o.lambda), Workers: o.workers, MaxMemory: limit}
 	if set["rho"] {
 		s.Rho, s.Neighbors = o.rho, 0
 	}
@@ -193,6 +201,9 @@ func describe(f *cholesky.Factor) string {
 		pattern = fmt.Sprintf("radius pattern ρ = %g", f.Rho())
 	case f.Neighbors() != 0:
 		pattern = fmt.Sprintf("nearest-neighbour pattern m = %d", f.Neighbors())
+		if greedy, c := f.Greedy(); greedy {
+			pattern = fmt.Sprintf("greedy pattern m = %d of %d candidates", f.Neighbors(), c)
+		}
 	}
 	return fmt.Sprintf("N = %d, d = %d, %s, nnz = %d (%.1f per column)", f.N(), f.Dim(), pattern, f.NNZ(), float64(f.NNZ())/float64(f.N()))
 }

@@ -91,3 +91,31 @@ func TestFactorLambdaAndMemoryFlags(t *testing.T) {
 		t.Errorf("a refused factor left %s behind", out)
 	}
 }
+
+func TestFactorGreedyFlags(t *testing.T) {
+	dir := t.TempDir()
+	points := writeCSV(t, dir, "p.csv", []string{"x", "y"}, testPoints(500, 2))
+	out := filepath.Join(dir, "g.kchol")
+	base := []string{"factor", "-points", points, "-kernel", "matern32", "-lengthscale", "0.2", "-neighbors", "8", "-o", out}
+	code, _, stderr := runKchol(append(base, "-greedy", "-candidates", "20")...)
+	if code != 0 || !strings.Contains(stderr, "greedy pattern m = 8 of 20 candidates") {
+		t.Fatalf("-greedy: exit %d, %q", code, stderr)
+	}
+	// The factor file records the choice; solve reads it back and names it.
+	rhs := writeCSV(t, dir, "b.csv", []string{"b"}, testPoints(500, 1))
+	code, _, stderr = runKchol("solve", "-factor", out, "-rhs", rhs, "-o", filepath.Join(dir, "x.csv"))
+	if code != 0 || !strings.Contains(stderr, "greedy pattern m = 8 of 20 candidates") {
+		t.Fatalf("solve of a greedy factor: exit %d, %q", code, stderr)
+	}
+	for _, bad := range [][]string{
+		{"-greedy", "-rho", "2"},
+		{"-candidates", "20"},
+		{"-greedy", "-candidates", "3"},
+	} {
+		args := append(append([]string{}, base[:len(base)-2]...), bad...)
+		args = append(args, "-o", filepath.Join(dir, "bad.kchol"))
+		if code, _, stderr := runKchol(args...); code != 2 || strings.Count(strings.TrimSpace(stderr), "\n") != 0 {
+			t.Errorf("%v: exit %d, %q; want one usage line", bad, code, stderr)
+		}
+	}
+}
