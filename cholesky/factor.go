@@ -290,7 +290,7 @@ func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Ke
 	report := set.progress()
 	start := time.Now()
 	report(Progress{PhaseAggregation, 0, 1})
-	f.setSupernodes(ordering.Aggregate(pat, ord.LengthScale, set.Lambda))
+	f.setSupernodes(ordering.Settings{Workers: set.Workers}.Aggregate(pat, ord.LengthScale, set.Lambda))
 	report(Progress{PhaseAggregation, 1, 1})
 	f.timings.Aggregation = time.Since(start)
 	if err := f.checkDuplicates(); err != nil {

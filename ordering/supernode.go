@@ -3,6 +3,8 @@ package ordering
 import (
 	"fmt"
 	"slices"
+
+	"golang.org/x/sync/errgroup"
 )
 
 // DefaultLambda is the default aggregation parameter λ of Aggregate.
@@ -29,20 +31,33 @@ func (s *Supernodes) MembersOf(k int) []int32 { return s.Members[s.MemberStart[k
 // RowsOf returns the row set of supernode k, ascending. The slice aliases s.Rows.
 func (s *Supernodes) RowsOf(k int) []int32 { return s.Rows[s.RowStart[k]:s.RowStart[k+1]] }
 
+// Aggregate groups the columns of p into supernodes with the default Settings. See
+// Settings.Aggregate.
+func Aggregate(p *Pattern, lengthScale []float64, lambda float64) *Supernodes {
+	return Settings{}.Aggregate(p, lengthScale, lambda)
+}
+
+// aggregateChunk is the number of supernodes whose row sets one task computes.
+const aggregateChunk = 1024
+
 // Aggregate groups the columns of p into supernodes (Schäfer, Katzfuss, Owhadi 2021, §3.2;
 // DESIGN.md §3): walking positions from the finest, an unassigned column j opens the supernode
 // J = {unassigned i ∈ column j of p : ℓᵢ ≤ λ·ℓⱼ}, whose row set is the union of its members'
 // columns; member k then owns the rows of that union that are ≥ k, a superset of its own
 // column, so the KL divergence can only fall. lambda ≤ 1 gives one supernode per column with
-// the pattern's own rows. lengthScale is Ordering.LengthScale. The result is deterministic.
+// the pattern's own rows. lengthScale is Ordering.LengthScale.
 //
-// Cost O(Σ_J |J|·m log m) for m rows per column. Panics if the sizes disagree.
-func Aggregate(p *Pattern, lengthScale []float64, lambda float64) *Supernodes {
+// The membership pass is sequential (it depends on the order of the walk); the row sets are
+// then built in parallel on s.Workers goroutines, each with its own marker array, and the
+// result is the same for any worker count. Cost O(nnz of the members' columns + Σ_J u_J log
+// u_J) time for row sets of u_J rows, O(N) memory per worker. Panics if the sizes disagree.
+func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *Supernodes {
 	n := p.N()
 	if len(lengthScale) != n {
 		panic(fmt.Sprintf("ordering: %d length scales for a pattern of %d columns", len(lengthScale), n))
 	}
-	out := &Supernodes{MemberStart: []int64{0}, RowStart: []int64{0}}
+	workers := s.workers()
+	out := &Supernodes{MemberStart: []int64{0}}
 	if lambda <= 1 {
 		out.MemberStart = make([]int64, n+1)
 		out.Members = make([]int32, n)
@@ -55,28 +70,71 @@ func Aggregate(p *Pattern, lengthScale []float64, lambda float64) *Supernodes {
 		return out
 	}
 	assigned := make([]bool, n)
-	var union []int32
+	out.Members = make([]int32, 0, n)
 	for j := range n {
 		if assigned[j] {
 			continue
 		}
 		limit := lambda * lengthScale[j]
-		first := len(out.Members)
 		for _, i := range p.Col(j) {
 			if !assigned[i] && lengthScale[i] <= limit {
 				assigned[i] = true
 				out.Members = append(out.Members, i)
 			}
 		}
-		union = union[:0]
-		for _, i := range out.Members[first:] {
-			union = append(union, p.Col(int(i))...)
-		}
-		slices.Sort(union)
-		union = slices.Compact(union)
-		out.Rows = append(out.Rows, union...)
 		out.MemberStart = append(out.MemberStart, int64(len(out.Members)))
-		out.RowStart = append(out.RowStart, int64(len(out.Rows)))
+	}
+	supernodes := out.Len()
+	chunks := (supernodes + aggregateChunk - 1) / aggregateChunk
+	rows := make([][]int32, chunks)
+	sizes := make([]int64, supernodes)
+	task := func(c int, mark []int32) {
+		var buf []int32
+		for sn := c * aggregateChunk; sn < min(supernodes, (c+1)*aggregateChunk); sn++ {
+			before := len(buf)
+			stamp := int32(sn + 1) // mark[r] == stamp: r is already in this union
+			for _, i := range out.MembersOf(sn) {
+				for _, r := range p.Col(int(i)) {
+					if mark[r] != stamp {
+						mark[r] = stamp
+						buf = append(buf, r)
+					}
+				}
+			}
+			slices.Sort(buf[before:])
+			sizes[sn] = int64(len(buf) - before)
+		}
+		rows[c] = buf
+	}
+	if workers == 1 || n < patternSerialBelow {
+		mark := make([]int32, n)
+		for c := range chunks {
+			task(c, mark)
+		}
+	} else {
+		pool := make(chan []int32, workers)
+		for range workers {
+			pool <- make([]int32, n)
+		}
+		var g errgroup.Group
+		g.SetLimit(workers)
+		for c := range chunks {
+			g.Go(func() error {
+				mark := <-pool
+				task(c, mark)
+				pool <- mark
+				return nil
+			})
+		}
+		g.Wait()
+	}
+	out.RowStart = make([]int64, supernodes+1)
+	for sn, size := range sizes {
+		out.RowStart[sn+1] = out.RowStart[sn] + size
+	}
+	out.Rows = make([]int32, 0, out.RowStart[supernodes])
+	for _, buf := range rows {
+		out.Rows = append(out.Rows, buf...)
 	}
 	return out
 }

@@ -107,3 +107,20 @@ func TestAggregateInfiniteLengthScale(t *testing.T) {
 		}
 	}
 }
+
+func TestAggregateSameForAnyWorkerCount(t *testing.T) {
+	// Row sets are built in parallel; the result must not depend on the worker count.
+	set := orderedSets(6000, 2)[0]
+	pat := NearestNeighbors(set.points, set.d, 20)
+	ref := Settings{Workers: 1}.Aggregate(pat, set.lengthScale, 1.5)
+	for _, workers := range []int{2, 7} {
+		got := Settings{Workers: workers}.Aggregate(pat, set.lengthScale, 1.5)
+		if !slices.Equal(got.MemberStart, ref.MemberStart) || !slices.Equal(got.Members, ref.Members) ||
+			!slices.Equal(got.RowStart, ref.RowStart) || !slices.Equal(got.Rows, ref.Rows) {
+			t.Fatalf("workers=%d: supernodes differ from one worker's", workers)
+		}
+	}
+	if ref.Len() >= pat.N() {
+		t.Fatalf("%d supernodes for %d columns: nothing aggregated", ref.Len(), pat.N())
+	}
+}
