@@ -185,11 +185,64 @@ func (k Stationary) FillLower(dst []float64, stride int, x []float64, idx []int3
 	checkBlock(len(dst), stride, len(idx), len(idx))
 	var invBuf [4]float64
 	inv, v := k.appendInverseScales(invBuf[:0]), k.variance()
+	d := len(inv)
+	// Gather the block's points, scaled by 1/ℓ, into a contiguous local array when they fit
+	// on the stack: the distance loop then reads one small array in order instead of points
+	// scattered over x, and skips the scaling.
+	var local [localPoints]float64
+	if d <= 3 && len(idx)*d <= localPoints {
+		scaled := local[:len(idx)*d]
+		for a, i := range idx {
+			for c := range d {
+				scaled[a*d+c] = x[int(i)*d+c] * inv[c]
+			}
+		}
+		for a := range idx {
+			row := dst[a*stride : a*stride+a+1]
+			sqDistancesLocal(row, scaled, d, a)
+			applyProfile(k.Family, v, row)
+			row[a] += k.Nugget
+		}
+		return
+	}
 	for a, i := range idx {
 		row := dst[a*stride : a*stride+a+1]
 		sqDistances(row, x, inv, i, idx[:a+1])
 		applyProfile(k.Family, v, row)
 		row[a] += k.Nugget
+	}
+}
+
+// localPoints is the number of coordinates FillLower gathers on the stack (8 KiB).
+const localPoints = 1024
+
+// sqDistancesLocal sets dst[b] = ‖y_a − y_b‖² for b < len(dst), for the contiguous scaled
+// points y of dimension d ≤ 3.
+func sqDistancesLocal(dst, y []float64, d, a int) {
+	switch d {
+	case 1:
+		ya := y[a]
+		for b := range dst {
+			t := ya - y[b]
+			dst[b] = t * t
+		}
+	case 2:
+		ya0, ya1 := y[2*a], y[2*a+1]
+		y = y[:2*len(dst)]
+		for b := range dst {
+			t0 := ya0 - y[2*b]
+			t1 := ya1 - y[2*b+1]
+			dst[b] = t0*t0 + t1*t1
+		}
+	case 3:
+		ya0, ya1, ya2 := y[3*a], y[3*a+1], y[3*a+2]
+		y = y[:3*len(dst)]
+		for b := range dst {
+			t0 := ya0 - y[3*b]
+			t1 := ya1 - y[3*b+1]
+			t2 := ya2 - y[3*b+2]
+			dst[b] = t0*t0 + t1*t1 + t2*t2
+		}
 	}
 }
 

@@ -264,3 +264,31 @@ func BenchmarkFillLower(b *testing.B) {
 		}
 	}
 }
+
+func TestFillLowerLargeBlockMatchesEval(t *testing.T) {
+	// Blocks too large for FillLower's stack copy take the other path; both must agree with
+	// Eval (same tolerance reasoning as TestFastPathMatchesEval).
+	const tolerance = 1e-13
+	rng := rand.New(rand.NewPCG(2, 2))
+	for _, n := range []int{localPoints / 2, localPoints/2 + 1} { // around the 2D limit
+		x := make([]float64, 2*n)
+		for i := range x {
+			x[i] = rng.Float64()
+		}
+		idx := make([]int32, n)
+		for i := range idx {
+			idx[i] = int32(n - 1 - i)
+		}
+		k := Stationary{Family: Matern32, Dimension: 2, LengthScale: 0.3}
+		dst := make([]float64, n*n)
+		FillLower(k, dst, n, x, idx)
+		for a := 0; a < n; a += 37 {
+			for b := 0; b <= a; b += 11 {
+				want := k.Eval(x[2*idx[a]:2*idx[a]+2], x[2*idx[b]:2*idx[b]+2])
+				if got := dst[a*n+b]; math.Abs(got-want) > tolerance*want {
+					t.Fatalf("n=%d: entry (%d,%d) = %v, want %v", n, a, b, got, want)
+				}
+			}
+		}
+	}
+}
