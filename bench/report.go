@@ -338,7 +338,7 @@ func (r *Report) markdownChecks(p func(string, ...any)) {
 		}
 		p(".\n")
 	}
-	var none, rho3 *CGRow
+	var none, rho3, nearest20, greedy20 *CGRow
 	for i, x := range r.CG {
 		if x.PointSet == "uniform" && x.Kernel == "matern32" {
 			switch x.Preconditioner {
@@ -346,8 +346,16 @@ func (r *Report) markdownChecks(p func(string, ...any)) {
 				none = &r.CG[i]
 			case "rho=3":
 				rho3 = &r.CG[i]
+			case "m=20":
+				nearest20 = &r.CG[i]
+			case "greedy-m=20":
+				greedy20 = &r.CG[i]
 			}
 		}
+	}
+	if nearest20 != nil && greedy20 != nil {
+		p("- CG, uniform 2D, Matérn 3/2: %d iterations with the greedy m = 20 factor against %d with the nearest-neighbour m = 20 factor. At most half: %s.\n",
+			greedy20.Iterations, nearest20.Iterations, yes[greedy20.Converged && 2*greedy20.Iterations <= nearest20.Iterations])
 	}
 	if none != nil && rho3 != nil {
 		limit := ""

@@ -469,7 +469,7 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 			diagonal bool
 		}
 		list := []pc{{"none", nil, false}, {"diagonal", nil, true}}
-		for _, name := range []string{"rho=2", "rho=3", "m=10", "m=30"} {
+		for _, name := range []string{"rho=2", "rho=3", "m=10", "m=20", "m=30", "greedy-m=10", "greedy-m=20"} {
 			if f, ok := factors[name]; ok {
 				list = append(list, pc{name, f, false})
 			}
