@@ -17,7 +17,8 @@ func TestKLNonIncreasingInRhoAndNeighbors(t *testing.T) {
 	// Property: S_ρ grows with ρ and the m-nearest sets grow with m, and the KL-optimal factor
 	// on a larger pattern minimises KL over a larger set, so KL cannot increase (Schäfer,
 	// Katzfuss, Owhadi 2021, §2). KL is computed with the dense Θ (DESIGN.md §4). The values
-	// are logged as a table; they are measurements, not assertions.
+	// are logged as a table; they are measurements, not assertions. No supernodes (λ = 1):
+	// aggregated patterns at different ρ or m need not be nested.
 	n := 2000
 	if testing.Short() {
 		n = 600
@@ -97,10 +98,10 @@ func TestKLNonIncreasingInRhoAndNeighbors(t *testing.T) {
 				}
 				var byRho, byM []Settings
 				for _, r := range rhos {
-					byRho = append(byRho, Settings{Rho: r})
+					byRho = append(byRho, Settings{Rho: r, Lambda: 1})
 				}
 				for _, m := range ms {
-					byM = append(byM, Settings{Neighbors: m})
+					byM = append(byM, Settings{Neighbors: m, Lambda: 1})
 				}
 				check("radius", byRho)
 				check("neighbours", byM)
