@@ -104,6 +104,15 @@ func (r *Report) WriteCSV(w io.Writer, table string) error {
 			rows = append(rows, []string{strconv.Itoa(x.N), x.Kernel, f(x.Tolerance), strconv.Itoa(x.Iterations), f(x.Residual), f(x.Seconds),
 				f(x.Cond), f(x.ErrorVsDense), f(x.Bound)})
 		}
+	case "settings":
+		rows = append(rows, []string{"sweep", "value", "point_set", "kernel", "n", "pattern", "nnz_per_column", "supernodes", "stored_rows_per_column",
+			"has_accuracy", "kl", "kl_per_point", "logdet_rel_error", "solve_rel_error", "mul_rel_error",
+			"ordering_seconds", "pattern_seconds", "aggregation_seconds", "factor_seconds", "total_seconds"})
+		for _, x := range r.Settings {
+			rows = append(rows, []string{x.Sweep, f(x.Value), x.PointSet, x.Kernel, strconv.Itoa(x.N), x.Pattern, f(x.NNZPerColumn), strconv.Itoa(x.Supernodes),
+				f(x.StoredRowsPerColumn), strconv.FormatBool(x.HasAccuracy), f(x.KL), f(x.KLPerPoint), f(x.LogDetError), f(x.SolveError), f(x.MulError),
+				f(x.OrderingSeconds), f(x.PatternSeconds), f(x.AggregationSeconds), f(x.FactorSeconds), f(x.TotalSeconds)})
+		}
 	default:
 		panic("bench: unknown table " + table)
 	}
@@ -114,7 +123,7 @@ func (r *Report) WriteCSV(w io.Writer, table string) error {
 }
 
 // CSVTables are the table names of WriteCSV.
-var CSVTables = []string{"dense", "factors", "nystrom", "cg", "scaling", "exact"}
+var CSVTables = []string{"dense", "factors", "nystrom", "cg", "scaling", "exact", "settings"}
 
 // FitSlope returns the least-squares slope of log y against log x (the exponent of a power
 // law y ∝ xᵖ) over the pairs with x, y > 0, and the number of pairs used.
@@ -250,6 +259,7 @@ func (r *Report) WriteMarkdown(w io.Writer) error {
 		}
 		p("\n")
 	}
+	r.markdownSettings(p)
 	if len(r.Notes) > 0 {
 		p("## Notes from the run\n\n")
 		for _, n := range r.Notes {
@@ -468,4 +478,36 @@ func (r *Report) markdownGreedy(p func(string, ...any)) {
 		p("%s", l)
 	}
 	p("\n")
+}
+
+// markdownSettings writes the sweeps over λ, the nugget and the number of workers.
+func (r *Report) markdownSettings(p func(string, ...any)) {
+	titles := map[string]string{
+		"lambda":  "Supernode parameter λ (1: no aggregation)",
+		"nugget":  "Nugget σ², Θ + σ²I factored directly",
+		"workers": "Workers (timing only, no dense reference)",
+	}
+	for _, sweep := range []string{"lambda", "nugget", "workers"} {
+		var rows []SettingsRow
+		for _, x := range r.Settings {
+			if x.Sweep == sweep {
+				rows = append(rows, x)
+			}
+		}
+		if len(rows) == 0 {
+			continue
+		}
+		p("## %s: %s points, %s, N = %d\n\n", titles[sweep], rows[0].PointSet, rows[0].Kernel, rows[0].N)
+		p("| pattern | %s | nnz/col | supernodes | stored rows/col | KL | KL/N | log det err | solve err | ordering s | pattern s | aggregation s | factor s | total s |\n", sweep)
+		p("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|\n")
+		for _, x := range rows {
+			kl, perPoint, logDet, solve := "–", "–", "–", "–"
+			if x.HasAccuracy {
+				kl, perPoint, logDet, solve = g(x.KL), g(x.KLPerPoint), g(x.LogDetError), g(x.SolveError)
+			}
+			p("| %s | %g | %.1f | %d | %.1f | %s | %s | %s | %s | %.3f | %.3f | %.3f | %.3f | %.3f |\n", x.Pattern, x.Value, x.NNZPerColumn, x.Supernodes,
+				x.StoredRowsPerColumn, kl, perPoint, logDet, solve, x.OrderingSeconds, x.PatternSeconds, x.AggregationSeconds, x.FactorSeconds, x.TotalSeconds)
+		}
+		p("\n")
+	}
 }

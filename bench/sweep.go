@@ -41,6 +41,22 @@ type Config struct {
 	// Lambda is the supernode aggregation λ of every factor. 0 means the library default
 	// (1.5); 1 means none.
 	Lambda float64 `json:"lambda"`
+	// SweepCase is the "pointset/kernel" case of the settings sweeps (λ, nugget, workers).
+	// "" means uniform/matern32.
+	SweepCase string `json:"sweep_case"`
+	// Lambdas are the λ of the supernode sweep, on SweepCase at N with its dense reference.
+	// nil means 1, 1.25, 1.5, 2; an empty list none.
+	Lambdas []float64 `json:"lambdas"`
+	// NuggetSweep are the nuggets of the noise sweep (the kernel matrix Θ + σ²I factored
+	// directly), on SweepCase at NuggetN points. nil means 0, 1e-4, 1e-2; an empty list none.
+	NuggetSweep []float64 `json:"nugget_sweep"`
+	// NuggetN is the size of the noise sweep. 0 means 2000.
+	NuggetN int `json:"nugget_n"`
+	// WorkerCounts are the worker counts of the timing sweep on SweepCase's points at
+	// WorkersN. nil means 1, 2, 4, … up to GOMAXPROCS; an empty list none.
+	WorkerCounts []int `json:"worker_counts"`
+	// WorkersN is the size of the worker sweep. 0 means 100000.
+	WorkersN int `json:"workers_n"`
 	// Nystrom enables the equal-memory Nyström baseline. nil means true.
 	Nystrom *bool `json:"nystrom"`
 	// CGCases are "pointset/kernel" cases with conjugate-gradient comparisons. nil means
@@ -91,6 +107,24 @@ func (c Config) WithDefaults() Config {
 	}
 	if c.Greedy == nil {
 		c.Greedy = []int{10, 20, 30}
+	}
+	if c.SweepCase == "" {
+		c.SweepCase = "uniform/matern32"
+	}
+	if c.Lambdas == nil {
+		c.Lambdas = []float64{1, 1.25, 1.5, 2}
+	}
+	if c.NuggetSweep == nil {
+		c.NuggetSweep = []float64{0, 1e-4, 1e-2}
+	}
+	if c.NuggetN == 0 {
+		c.NuggetN = 2000
+	}
+	if c.WorkerCounts == nil {
+		c.WorkerCounts = defaultWorkerCounts()
+	}
+	if c.WorkersN == 0 {
+		c.WorkersN = 100000
 	}
 	if c.Neighbors == nil {
 		c.Neighbors = []int{5, 10, 20, 30, 50}
@@ -166,8 +200,26 @@ func (c Config) Validate() error {
 			return fmt.Errorf("bench: m = %d, want ≥ 1", m)
 		}
 	}
-	if c.Lambda != 0 && !(c.Lambda >= 1) {
-		return fmt.Errorf("bench: λ = %v, want 0 (default), 1 (none) or > 1", c.Lambda)
+	for _, l := range append([]float64{c.Lambda}, c.Lambdas...) {
+		if l != 0 && !(l >= 1) {
+			return fmt.Errorf("bench: λ = %v, want 0 (default), 1 (none) or > 1", l)
+		}
+	}
+	if _, _, ok := cutCase(c.SweepCase); !ok {
+		return fmt.Errorf("bench: sweep case %q, want pointset/kernel", c.SweepCase)
+	}
+	for _, v := range c.NuggetSweep {
+		if !(v >= 0) || math.IsInf(v, 0) {
+			return fmt.Errorf("bench: sweep nugget %v, want ≥ 0", v)
+		}
+	}
+	for _, w := range c.WorkerCounts {
+		if w < 1 {
+			return fmt.Errorf("bench: %d workers, want ≥ 1", w)
+		}
+	}
+	if c.NuggetN < 2 || c.WorkersN < 2 {
+		return fmt.Errorf("bench: sweep sizes %d and %d, want ≥ 2", c.NuggetN, c.WorkersN)
 	}
 	for _, cs := range c.CGCases {
 		p, k, ok := strings.Cut(cs, "/")
@@ -311,17 +363,18 @@ type DenseRow struct {
 
 // Report is the result of a sweep.
 type Report struct {
-	Machine     Machine      `json:"machine"`
-	Config      Config       `json:"config"`
-	Command     string       `json:"command"`
-	Dense       []DenseRow   `json:"dense"`
-	Factors     []FactorRow  `json:"factors"`
-	Nystrom     []NystromRow `json:"nystrom"`
-	CG          []CGRow      `json:"cg"`
-	Scaling     []ScalingRow `json:"scaling"`
-	Exact       []ExactRow   `json:"exact"`
-	Notes       []string     `json:"notes"`
-	WallSeconds float64      `json:"wall_seconds"`
+	Machine     Machine       `json:"machine"`
+	Config      Config        `json:"config"`
+	Command     string        `json:"command"`
+	Dense       []DenseRow    `json:"dense"`
+	Factors     []FactorRow   `json:"factors"`
+	Nystrom     []NystromRow  `json:"nystrom"`
+	CG          []CGRow       `json:"cg"`
+	Scaling     []ScalingRow  `json:"scaling"`
+	Exact       []ExactRow    `json:"exact"`
+	Settings    []SettingsRow `json:"settings"`
+	Notes       []string      `json:"notes"`
+	WallSeconds float64       `json:"wall_seconds"`
 }
 
 // Run performs the sweep described by c (defaults filled in) and returns its report. Progress
@@ -352,6 +405,12 @@ func Run(ctx context.Context, c Config, progress io.Writer) (*Report, error) {
 		return nil, err
 	}
 	if err := runExact(ctx, c, rep, logf); err != nil {
+		return nil, err
+	}
+	if err := runNuggetSweep(ctx, c, rep, logf); err != nil {
+		return nil, err
+	}
+	if err := runWorkerSweep(ctx, c, rep, logf); err != nil {
 		return nil, err
 	}
 	rep.WallSeconds = time.Since(start).Seconds()
@@ -456,6 +515,11 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 	}
 	rep.Factors = append(rep.Factors, rows...)
 
+	if c.SweepCase == ps+"/"+kn && len(c.Lambdas) > 0 {
+		if err := runLambdaSweep(ctx, c, rep, ps, kn, points, d, k, ref, logf); err != nil {
+			return err
+		}
+	}
 	if *c.Nystrom && len(rows) > 0 {
 		if err := runNystrom(ctx, c, rep, ps, kn, points, d, ref, rows, logf); err != nil {
 			return err
@@ -641,4 +705,16 @@ func (r FactorRow) Name() string {
 		return fmt.Sprintf("greedy-m=%g", r.Parameter)
 	}
 	return fmt.Sprintf("m=%g", r.Parameter)
+}
+
+// cutCase splits a "pointset/kernel" case and reports whether both parts are known.
+func cutCase(cs string) (pointSet, kernel string, ok bool) {
+	p, k, found := strings.Cut(cs, "/")
+	if !found || !slices.Contains(PointSetNames, p) {
+		return "", "", false
+	}
+	if _, err := kernels.ParseFamily(k); err != nil {
+		return "", "", false
+	}
+	return p, k, true
 }

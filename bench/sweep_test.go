@@ -203,6 +203,7 @@ func TestRunWritesReport(t *testing.T) {
 	// encoding/csv and encoding/json, and the Markdown starts with the machine.
 	no := false
 	c := Config{N: 150, PointSets: []string{"uniform", "clustered"}, Kernels: []string{"matern12", "gaussian"}, Rhos: []float64{2, 3}, Neighbors: []int{5}, Greedy: []int{5},
+		SweepCase: "uniform/matern12", Lambdas: []float64{1, 2}, NuggetSweep: []float64{0, 1e-2}, NuggetN: 120, WorkerCounts: []int{1, 2}, WorkersN: 700,
 		Nystrom: &no, CGCases: []string{"uniform/matern12"}, ScalingN: []int{300, 600}, ExactSolveN: []int{200}, ExactResidualLimit: 600}
 	if !testing.Short() {
 		yes := true
@@ -261,6 +262,30 @@ func TestRunWritesReport(t *testing.T) {
 	}
 	if len(rep.Exact) != 1 || rep.Exact[0].Residual > 1e-10 || rep.Exact[0].ErrorVsDense > rep.Exact[0].Bound {
 		t.Errorf("exact solve row %+v", rep.Exact)
+	}
+	// Settings sweeps: 2 patterns × (2 λ + 2 nuggets + 2 worker counts).
+	counts := map[string]int{}
+	for _, x := range rep.Settings {
+		counts[x.Sweep]++
+		if x.HasAccuracy != (x.Sweep != "workers") || (x.HasAccuracy && !(x.KL >= -1e-9)) {
+			t.Errorf("settings row %+v", x)
+		}
+	}
+	if counts["lambda"] != 4 || counts["nugget"] != 4 || counts["workers"] != 4 {
+		t.Errorf("settings rows by sweep %v, want 4 each", counts)
+	}
+	// λ = 1 gives one supernode per column; aggregation only adds rows, so KL cannot grow
+	// (the same property as TestSupernodesNeverIncreaseKL in package cholesky).
+	byPattern := map[string][]SettingsRow{}
+	for _, x := range rep.Settings {
+		if x.Sweep == "lambda" {
+			byPattern[x.Pattern] = append(byPattern[x.Pattern], x)
+		}
+	}
+	for name, rows := range byPattern {
+		if rows[0].Supernodes != rows[0].N || rows[1].KL > rows[0].KL*(1+1e-9)+1e-9 {
+			t.Errorf("%s: λ = 1 has %d supernodes for N = %d; KL %g at λ = 2 against %g", name, rows[0].Supernodes, rows[0].N, rows[1].KL, rows[0].KL)
+		}
 	}
 }
 

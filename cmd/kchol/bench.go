@@ -17,6 +17,7 @@ import (
 type benchOptions struct {
 	config, output                                                         string
 	pointSets, kernels, rhos, neighbors, greedy, cgCases, scalingN, exactN string
+	sweepCase, lambdas, nuggetSweep, workerCounts                          string
 	n, denseLimit, workers                                                 int
 	lengthScale, lambda                                                    float64
 	seed                                                                   uint64
@@ -35,6 +36,10 @@ func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writ
 	fs.StringVar(&o.rhos, "rho", "1,2,3,4,5,6,7,8", "comma-separated `values` of ρ for the radius pattern (empty: none)")
 	fs.StringVar(&o.neighbors, "neighbors", "5,10,20,30,50", "comma-separated `values` of m for the nearest-neighbour pattern (empty: none)")
 	fs.StringVar(&o.greedy, "greedy", "10,20,30", "comma-separated `values` of m for the greedy pattern, 4m candidates (empty: none)")
+	fs.StringVar(&o.sweepCase, "sweep-case", "uniform/matern32", "pointset/kernel `case` of the λ, nugget and worker sweeps")
+	fs.StringVar(&o.lambdas, "lambdas", "1,1.25,1.5,2", "comma-separated `values` of λ for the supernode sweep (empty: none)")
+	fs.StringVar(&o.nuggetSweep, "nugget-sweep", "0,1e-4,1e-2", "comma-separated `nuggets` of the noise sweep at 2000 points (empty: none)")
+	fs.StringVar(&o.workerCounts, "worker-counts", "", "comma-separated worker `counts` of the timing sweep at 10⁵ points (default 1, 2, 4, … up to GOMAXPROCS; \"none\": none)")
 	fs.Float64Var(&o.lambda, "lambda", 0, "supernode aggregation `λ` of every factor (0: the default 1.5; 1: none)")
 	fs.BoolVar(&o.nystrom, "nystrom", true, "compare with the equal-memory Nyström baseline")
 	fs.StringVar(&o.cgCases, "cg", "uniform/matern32", "comma-separated pointset/kernel `cases` with conjugate-gradient comparisons (empty: none)")
@@ -97,6 +102,26 @@ func benchConfig(fs *flag.FlagSet, o *benchOptions) (bench.Config, error) {
 	}
 	if use("lambda") {
 		c.Lambda = o.lambda
+	}
+	if use("sweep-case") {
+		c.SweepCase = o.sweepCase
+	}
+	if use("lambdas") {
+		if c.Lambdas, err = parseList(o.lambdas, "lambdas", func(s string) (float64, error) { return strconv.ParseFloat(s, 64) }); err != nil {
+			return c, err
+		}
+	}
+	if use("nugget-sweep") {
+		if c.NuggetSweep, err = parseList(o.nuggetSweep, "nugget-sweep", func(s string) (float64, error) { return strconv.ParseFloat(s, 64) }); err != nil {
+			return c, err
+		}
+	}
+	if set["worker-counts"] {
+		if strings.TrimSpace(o.workerCounts) == "none" {
+			c.WorkerCounts = []int{}
+		} else if c.WorkerCounts, err = parseList(o.workerCounts, "worker-counts", strconv.Atoi); err != nil {
+			return c, err
+		}
 	}
 	if use("nystrom") {
 		c.Nystrom = &o.nystrom
