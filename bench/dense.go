@@ -95,37 +95,11 @@ func RelativeError(a, b []float64) float64 {
 	return math.Sqrt(num / den)
 }
 
-// KLDivergence returns KL(N(0,Θ) ‖ N(0,Θ̃)) for the factor, Θ̃⁻¹ = M Mᵀ, from the dense Θ:
-//
-//	2·KL = tr(MᵀΘM) − N − log det Θ + log det Θ̃
-//
-// (the KL divergence of two centred Gaussians, e.g. Schäfer, Katzfuss, Owhadi 2021, eq. 2.3;
-// DESIGN.md §4). It also returns tr(MᵀΘM), which is N at the KL-optimal factor. The columns of
-// M are recovered through the public MulLTo, one per unit vector. Cost O(N² + Σⱼ nnzⱼ²).
+// KLDivergence returns KL(N(0,Θ) ‖ N(0,Θ̃)) for the factor from the dense Θ, and
+// tr(LᵀΘL), which is N at the KL-optimal factor: Factor.KLDivergence on ref.Theta.
+// Cost O(Σⱼ nnzⱼ²).
 func KLDivergence(f *cholesky.Factor, ref *DenseReference) (kl, trace float64) {
-	n := f.N()
-	e := make([]float64, n)
-	col := make([]float64, n)
-	var idx []int
-	for j := range n {
-		e[j] = 1
-		f.MulLTo(col, e)
-		e[j] = 0
-		idx = idx[:0]
-		for i, v := range col {
-			if v != 0 {
-				idx = append(idx, i)
-			}
-		}
-		for _, a := range idx {
-			var s float64
-			for _, b := range idx {
-				s += ref.Theta.At(a, b) * col[b]
-			}
-			trace += col[a] * s
-		}
-	}
-	return 0.5 * (trace - float64(n) - ref.LogDet + f.LogDet()), trace
+	return f.KLDivergence(ref.Theta, ref.LogDet)
 }
 
 // Normal returns n standard normal values from the seed (rand.NewPCG(seed, seed)).

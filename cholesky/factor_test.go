@@ -345,3 +345,26 @@ func TestColumnAllocatesNothing(t *testing.T) {
 }
 
 var _ = ordering.Ordering{}
+
+func TestKLDivergenceMatchesTestFormula(t *testing.T) {
+	// The exported KLDivergence against this package's own test oracle (dense_test.go), on an
+	// aggregated pattern, and KL = 0 (to rounding) for the full pattern.
+	points := uniformPoints(500, 2, 8)
+	k := kernels.Stationary{Family: kernels.Matern12, Dimension: 2, LengthScale: 0.2}
+	theta := denseKernelMatrix(k, points, 2)
+	logDet := denseCholesky(t, theta).LogDet()
+	for _, s := range []Settings{{Neighbors: 10}, {Rho: math.Inf(1)}} {
+		f, err := New(context.Background(), points, 2, k, &s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		kl, trace := f.KLDivergence(theta, logDet)
+		wantKL, wantTrace := klDivergence(f, theta, logDet)
+		if math.Abs(kl-wantKL) > 1e-9*(1+wantKL) || math.Abs(trace-wantTrace) > 1e-9*wantTrace {
+			t.Errorf("rho=%g m=%d: KL %g, trace %g; test oracle %g, %g", s.Rho, s.Neighbors, kl, trace, wantKL, wantTrace)
+		}
+		if math.IsInf(s.Rho, 1) && math.Abs(kl) > 1e-8*float64(f.N()) {
+			t.Errorf("full pattern: KL %g, want 0 to rounding", kl)
+		}
+	}
+}

@@ -220,7 +220,7 @@ func demoDense(ctx context.Context, sub *demoSurvey, k kernels.Stationary, worke
 		logDetError := math.Abs(f.LogDet()-denseLogDet) / math.Abs(denseLogDet)
 		approx := f.SolveTo(nil, y)
 		solveError := floats.Distance(approx, exact, 2) / floats.Norm(exact, 2)
-		kl := klDivergence(f, theta, denseLogDet)
+		kl, _ := f.KLDivergence(theta, denseLogDet)
 		fmt.Fprintf(stdout, "| %s | %.1f | %.2e | %.2e | %.3g | %s | %s | %.3f |\n", p.name, float64(f.NNZ())/float64(m),
 			logDetError, solveError, kl, demoSeconds(sparseTime), demoSeconds(denseTime), sparseTime.Seconds()/denseTime.Seconds())
 	}
@@ -228,34 +228,6 @@ func demoDense(ctx context.Context, sub *demoSurvey, k kernels.Stationary, worke
 	fmt.Fprintf(stdout, "time is all of cholesky.New (ordering, pattern and factor). Relative errors: |Δ log det| / |log det Θ|\n")
 	fmt.Fprintf(stdout, "and ‖Θ̃⁻¹y − Θ⁻¹y‖₂ / ‖Θ⁻¹y‖₂; KL divergence KL(N(0, Θ) ‖ N(0, Θ̃)).\n\n")
 	return nil
-}
-
-// klDivergence returns KL(N(0, Θ) ‖ N(0, Θ̃)) = ½ (tr(Θ̃⁻¹Θ) − N + log det Θ̃ − log det Θ)
-// (the Gaussian KL divergence; F. Schäfer, M. Katzfuss, H. Owhadi, SIAM J. Sci. Comput. 43(3),
-// 2021, section 2), with Θ̃⁻¹ = M Mᵀ and tr(MMᵀΘ) = Σⱼ mⱼᵀ Θ mⱼ over the sparse columns mⱼ of
-// M. Cost O(N² + Σⱼ nnz(mⱼ)²).
-func klDivergence(f *cholesky.Factor, theta *mat.SymDense, logDetTheta float64) float64 {
-	n := f.N()
-	e, col := make([]float64, n), make([]float64, n)
-	var nz []int
-	var trace float64
-	for j := range n {
-		e[j] = 1
-		f.MulLTo(col, e)
-		e[j] = 0
-		nz = nz[:0]
-		for i, v := range col {
-			if v != 0 {
-				nz = append(nz, i)
-			}
-		}
-		for _, a := range nz {
-			for _, b := range nz {
-				trace += col[a] * theta.At(a, b) * col[b]
-			}
-		}
-	}
-	return 0.5 * (trace - float64(n) + f.LogDet() - logDetTheta)
 }
 
 // demoFull factors the whole survey with both patterns and prints timings and results.

@@ -149,7 +149,7 @@ func TestDemoKLDivergence(t *testing.T) {
 			logDetM, _ := mat.LogDet(m)
 			logDetApprox := -2 * logDetM
 			want := 0.5 * (mat.Trace(&product) - n + logDetApprox - logDetTheta)
-			got := klDivergence(f, theta, logDetTheta)
+			got, _ := f.KLDivergence(theta, logDetTheta)
 			if math.Abs(got-want) > c.tolerance*math.Max(1, math.Abs(want)) {
 				t.Errorf("KL = %v, dense formula %v", got, want)
 			}
