@@ -5,7 +5,6 @@ import (
 	"math"
 	"slices"
 
-	"golang.org/x/sync/errgroup"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 
@@ -261,52 +260,8 @@ func (g *greedySelector) column(dst []int32, j int, w *greedyWork) ([]int32, flo
 // pattern selects the n columns in the given order, in chunks of greedyChunk, in parallel,
 // and assembles them in position order.
 func (g *greedySelector) pattern(order []int32, workers int) *Pattern {
-	n := g.n
-	chunks := (n + greedyChunk - 1) / greedyChunk
-	rows := make([][]int32, chunks)
-	colLen := make([]int32, n)
-	colOffset := make([]int64, n) // offset of column j's rows in its chunk's buffer
-	task := func(c int, w *greedyWork) {
-		buf := make([]int32, 0, greedyChunk*(min(g.m, n)+1))
-		for _, j := range order[c*greedyChunk : min(n, (c+1)*greedyChunk)] {
-			before := len(buf)
-			buf, _ = g.column(buf, int(j), w)
-			colOffset[j], colLen[j] = int64(before), int32(len(buf)-before)
-		}
-		rows[c] = buf
-	}
-	if n < greedySerialBelow || workers == 1 {
-		var w greedyWork
-		for c := range chunks {
-			task(c, &w)
-		}
-	} else {
-		pool := make(chan *greedyWork, workers)
-		for range workers {
-			pool <- new(greedyWork)
-		}
-		var eg errgroup.Group
-		eg.SetLimit(workers)
-		for c := range chunks {
-			eg.Go(func() error {
-				w := <-pool
-				task(c, w)
-				pool <- w
-				return nil
-			})
-		}
-		eg.Wait()
-	}
-	p := &Pattern{ColStart: make([]int64, n+1)}
-	for j, l := range colLen {
-		p.ColStart[j+1] = p.ColStart[j] + int64(l)
-	}
-	p.Rows = make([]int32, p.ColStart[n])
-	for c := range chunks {
-		for _, j := range order[c*greedyChunk : min(n, (c+1)*greedyChunk)] {
-			copy(p.Rows[p.ColStart[j]:p.ColStart[j+1]], rows[c][colOffset[j]:])
-		}
-		rows[c] = nil
-	}
-	return p
+	return assemblePattern(g.n, workers, order, greedyChunk, greedySerialBelow, func(dst []int32, j int, w *greedyWork) []int32 {
+		dst, _ = g.column(dst, j, w)
+		return dst
+	})
 }

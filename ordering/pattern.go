@@ -177,32 +177,39 @@ func queryOrder(n int, trees *suffixTrees, count func(j int) int) []int32 {
 	return order
 }
 
-// buildPattern computes the n columns in the given order, in chunks, in parallel, and
-// assembles them in position order. column appends column j's rows to dst using the
-// workspace w.
+// buildPattern computes the n columns in the given order, in chunks of patternChunk, in
+// parallel below patternSerialBelow columns, and assembles them in position order. column
+// appends column j's rows to dst using the workspace w.
 func buildPattern(n, workers int, order []int32, column func(dst []int32, j int, w *searchWork) []int32) *Pattern {
-	chunks := (n + patternChunk - 1) / patternChunk
+	return assemblePattern(n, workers, order, patternChunk, patternSerialBelow, column)
+}
+
+// assemblePattern computes the n columns in the given order in chunks of chunk columns, on
+// workers goroutines (one below serialBelow columns), each with its own workspace W, and
+// assembles them in position order. The result is the same for any worker count.
+func assemblePattern[W any](n, workers int, order []int32, chunk, serialBelow int, column func(dst []int32, j int, w *W) []int32) *Pattern {
+	chunks := (n + chunk - 1) / chunk
 	rows := make([][]int32, chunks)
 	colLen := make([]int32, n)
 	colOffset := make([]int64, n) // offset of column j's rows in its chunk's buffer
-	task := func(c int, w *searchWork) {
+	task := func(c int, w *W) {
 		var buf []int32
-		for _, j := range order[c*patternChunk : min(n, (c+1)*patternChunk)] {
+		for _, j := range order[c*chunk : min(n, (c+1)*chunk)] {
 			before := len(buf)
 			buf = column(buf, int(j), w)
 			colOffset[j], colLen[j] = int64(before), int32(len(buf)-before)
 		}
 		rows[c] = buf
 	}
-	if n < patternSerialBelow || workers == 1 {
-		var w searchWork
+	if n < serialBelow || workers == 1 {
+		w := new(W)
 		for c := range chunks {
-			task(c, &w)
+			task(c, w)
 		}
 	} else {
-		pool := make(chan *searchWork, workers)
+		pool := make(chan *W, workers)
 		for range workers {
-			pool <- new(searchWork)
+			pool <- new(W)
 		}
 		var g errgroup.Group
 		g.SetLimit(workers)
@@ -222,7 +229,7 @@ func buildPattern(n, workers int, order []int32, column func(dst []int32, j int,
 	}
 	p.Rows = make([]int32, p.ColStart[n])
 	for c := range chunks {
-		for _, j := range order[c*patternChunk : min(n, (c+1)*patternChunk)] {
+		for _, j := range order[c*chunk : min(n, (c+1)*chunk)] {
 			copy(p.Rows[p.ColStart[j]:p.ColStart[j+1]], rows[c][colOffset[j]:])
 		}
 		rows[c] = nil
