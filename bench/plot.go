@@ -78,7 +78,7 @@ func (r *Report) writePlots(dir string) error {
 	for _, ps := range r.Config.PointSets {
 		var nnz, rho, solve []series
 		for _, kn := range r.Config.Kernels {
-			for _, pat := range []string{"radius", "neighbors", "greedy"} {
+			for _, pat := range []string{"radius", "neighbors", "greedy", "joint"} {
 				var a, b, c plotter.XYs
 				for _, x := range r.Factors {
 					if x.PointSet != ps || x.Kernel != kn || x.Pattern != pat {
@@ -90,7 +90,7 @@ func (r *Report) writePlots(dir string) error {
 						b = append(b, plotter.XY{X: x.Parameter, Y: x.KL})
 					}
 				}
-				name := kn + " " + map[string]string{"radius": "ρ", "neighbors": "m", "greedy": "greedy m"}[pat]
+				name := kn + " " + map[string]string{"radius": "ρ", "neighbors": "m", "greedy": "greedy m", "joint": "joint greedy m"}[pat]
 				if len(a) > 0 {
 					nnz = append(nnz, series{name, a})
 					solve = append(solve, series{name, c})

@@ -38,6 +38,10 @@ type Config struct {
 	// Greedy are the m of the greedy pattern (cholesky.Settings.Greedy, 4m candidates). nil
 	// means 10, 20, 30; an empty list none.
 	Greedy []int `json:"greedy"`
+	// JointGreedy are the m (shared points per supernode) of the joint greedy pattern
+	// (cholesky.Settings.JointGreedy, 4m candidates). nil means 20, 40, 60 (its nnz per column
+	// at m is far below the per-column patterns', so compare at equal nnz); empty none.
+	JointGreedy []int `json:"joint_greedy"`
 	// Lambda is the supernode aggregation λ of every factor. 0 means the library default
 	// (1.5); 1 means none.
 	Lambda float64 `json:"lambda"`
@@ -107,6 +111,9 @@ func (c Config) WithDefaults() Config {
 	}
 	if c.Greedy == nil {
 		c.Greedy = []int{10, 20, 30}
+	}
+	if c.JointGreedy == nil {
+		c.JointGreedy = []int{20, 40, 60}
 	}
 	if c.SweepCase == "" {
 		c.SweepCase = "uniform/matern32"
@@ -195,7 +202,7 @@ func (c Config) Validate() error {
 			return fmt.Errorf("bench: ρ = %v, want > 0", r)
 		}
 	}
-	for _, m := range append(append([]int(nil), c.Neighbors...), c.Greedy...) {
+	for _, m := range slices.Concat(c.Neighbors, c.Greedy, c.JointGreedy) {
 		if m < 1 {
 			return fmt.Errorf("bench: m = %d, want ≥ 1", m)
 		}
@@ -272,7 +279,7 @@ type FactorRow struct {
 	PointSet string `json:"point_set"`
 	Kernel   string `json:"kernel"`
 	N        int    `json:"n"`
-	// Pattern is "radius", "neighbors" or "greedy"; Parameter is ρ or m.
+	// Pattern is "radius", "neighbors", "greedy" or "joint"; Parameter is ρ or m.
 	Pattern      string  `json:"pattern"`
 	Parameter    float64 `json:"parameter"`
 	NNZPerColumn float64 `json:"nnz_per_column"`
@@ -437,6 +444,8 @@ func patternName(s cholesky.Settings) string {
 	switch {
 	case s.Rho > 0:
 		return fmt.Sprintf("rho=%g", s.Rho)
+	case s.Greedy && s.JointGreedy:
+		return fmt.Sprintf("joint-m=%d", s.Neighbors)
 	case s.Greedy:
 		return fmt.Sprintf("greedy-m=%d", s.Neighbors)
 	}
@@ -481,6 +490,9 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 	for _, m := range c.Greedy {
 		patterns = append(patterns, cholesky.Settings{Neighbors: m, Greedy: true, Lambda: c.Lambda, Workers: c.Workers})
 	}
+	for _, m := range c.JointGreedy {
+		patterns = append(patterns, cholesky.Settings{Neighbors: m, Greedy: true, JointGreedy: true, Lambda: c.Lambda, Workers: c.Workers})
+	}
 	factors := map[string]*cholesky.Factor{}
 	var rows []FactorRow
 	for _, s := range patterns {
@@ -503,6 +515,8 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 		switch {
 		case s.Rho > 0:
 			row.Pattern, row.Parameter = "radius", s.Rho
+		case s.Greedy && s.JointGreedy:
+			row.Pattern, row.Parameter = "joint", float64(s.Neighbors)
 		case s.Greedy:
 			row.Pattern, row.Parameter = "greedy", float64(s.Neighbors)
 		default:
@@ -703,6 +717,8 @@ func (r FactorRow) Name() string {
 		return fmt.Sprintf("rho=%g", r.Parameter)
 	case "greedy":
 		return fmt.Sprintf("greedy-m=%g", r.Parameter)
+	case "joint":
+		return fmt.Sprintf("joint-m=%g", r.Parameter)
 	}
 	return fmt.Sprintf("m=%g", r.Parameter)
 }

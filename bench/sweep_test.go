@@ -202,7 +202,7 @@ func TestRunWritesReport(t *testing.T) {
 	// End to end on a tiny sweep: every file is written, the tables read back with
 	// encoding/csv and encoding/json, and the Markdown starts with the machine.
 	no := false
-	c := Config{N: 150, PointSets: []string{"uniform", "clustered"}, Kernels: []string{"matern12", "gaussian"}, Rhos: []float64{2, 3}, Neighbors: []int{5}, Greedy: []int{5},
+	c := Config{N: 150, PointSets: []string{"uniform", "clustered"}, Kernels: []string{"matern12", "gaussian"}, Rhos: []float64{2, 3}, Neighbors: []int{5}, Greedy: []int{5}, JointGreedy: []int{8},
 		SweepCase: "uniform/matern12", Lambdas: []float64{1, 2}, NuggetSweep: []float64{0, 1e-2}, NuggetN: 120, WorkerCounts: []int{1, 2}, WorkersN: 700,
 		Nystrom: &no, CGCases: []string{"uniform/matern12"}, ScalingN: []int{300, 600}, ExactSolveN: []int{200}, ExactResidualLimit: 600}
 	if !testing.Short() {
@@ -213,7 +213,7 @@ func TestRunWritesReport(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got, want := len(rep.Factors), 2*2*4; got != want {
+	if got, want := len(rep.Factors), 2*2*5; got != want {
 		t.Fatalf("%d factor rows, want %d (notes %v)", got, want, rep.Notes)
 	}
 	dir := t.TempDir()

@@ -42,6 +42,11 @@ type Settings struct {
 	// Candidates is the number c of nearest coarser points the greedy selection chooses
 	// from. 0 means 4m.
 	Candidates int
+	// JointGreedy, with Greedy and λ > 1, chooses one shared set of m points per supernode
+	// for all its members at once, by the reduction of log det Cov(y_J | y_S) (that is, of the
+	// members' share of the KL divergence), instead of selecting per column and then
+	// aggregating (ordering.GreedySupernodes). Ignored without Greedy.
+	JointGreedy bool
 	// Lambda is the supernode aggregation parameter λ (DESIGN.md §3): columns whose length
 	// scales are within a factor λ of a column that contains them share one row set and one
 	// dense factorisation. 0 means ordering.DefaultLambda (1.5); any value ≤ 1, such as 1,
@@ -119,13 +124,16 @@ func (s *Settings) withDefaults() Settings {
 		panic(fmt.Sprintf("cholesky: %d greedy candidates for m = %d neighbours; want at least m", out.Candidates, out.Neighbors))
 	}
 	if !out.Greedy {
-		out.Candidates = 0
+		out.Candidates, out.JointGreedy = 0, false
 	}
 	if out.Workers <= 0 {
 		out.Workers = runtime.GOMAXPROCS(0)
 	}
 	if out.Lambda == 0 {
 		out.Lambda = ordering.DefaultLambda
+	}
+	if out.Lambda <= 1 {
+		out.JointGreedy = false // single columns: the per-column selection is the same
 	}
 	return out
 }
@@ -154,9 +162,10 @@ type Factor struct {
 	rho       float64
 	neighbors int
 	lambda    float64
-	// greedy reports the greedy selection among candidates nearest coarser points.
-	greedy     bool
-	candidates int
+	// greedy reports the greedy selection among candidates nearest coarser points, joint
+	// its per-supernode variant.
+	greedy, joint bool
+	candidates    int
 
 	// Supernode s has the columns members[memberStart[s]:memberStart[s+1]] (ascending) and
 	// the row set rows[superRowStart[s]:superRowStart[s+1]] (ascending), stored once.
@@ -228,6 +237,17 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 	report(Progress{PhasePattern, 0, 1})
 	var pat *ordering.Pattern
 	builder := ordering.Settings{Workers: set.Workers}
+	if set.JointGreedy {
+		sn := builder.GreedySupernodes(permuted, d, ord.LengthScale, k, set.Neighbors, set.Candidates, set.Lambda)
+		report(Progress{PhasePattern, 1, 1})
+		patternTime := time.Since(start)
+		f, err := newFromSupernodes(ctx, permuted, d, k, ord, sn, set)
+		if err != nil {
+			return nil, err
+		}
+		f.timings.Ordering, f.timings.Pattern = orderTime, patternTime
+		return f, nil
+	}
 	switch {
 	case set.Rho > 0:
 		pat = builder.Radius(permuted, d, ord.LengthScale, set.Rho)
@@ -271,7 +291,24 @@ func NewFromPattern(ctx context.Context, points []float64, d int, k kernels.Kern
 }
 
 func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Kernel, ord ordering.Ordering, pat *ordering.Pattern, set Settings) (*Factor, error) {
+	report := set.progress()
+	start := time.Now()
+	report(Progress{PhaseAggregation, 0, 1})
+	sn := ordering.Settings{Workers: set.Workers}.Aggregate(pat, ord.LengthScale, set.Lambda)
+	report(Progress{PhaseAggregation, 1, 1})
+	aggregation := time.Since(start)
+	f, err := newFromSupernodes(ctx, permuted, d, k, ord, sn, set)
+	if err != nil {
+		return nil, err
+	}
+	f.timings.Aggregation = aggregation
+	return f, nil
+}
+
+// newFromSupernodes computes the factor on given supernodes (members and shared row sets).
+func newFromSupernodes(ctx context.Context, permuted []float64, d int, k kernels.Kernel, ord ordering.Ordering, sn *ordering.Supernodes, set Settings) (*Factor, error) {
 	n := len(permuted) / d
+	report := set.progress()
 	f := &Factor{
 		n: n, d: d, kernel: k,
 		points:      permuted,
@@ -282,17 +319,13 @@ func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Ke
 		neighbors:   set.Neighbors,
 		greedy:      set.Greedy,
 		candidates:  set.Candidates,
+		joint:       set.JointGreedy,
 		lambda:      max(1, set.Lambda),
 	}
 	for p, i := range f.order {
 		f.position[i] = p
 	}
-	report := set.progress()
-	start := time.Now()
-	report(Progress{PhaseAggregation, 0, 1})
-	f.setSupernodes(ordering.Settings{Workers: set.Workers}.Aggregate(pat, ord.LengthScale, set.Lambda))
-	report(Progress{PhaseAggregation, 1, 1})
-	f.timings.Aggregation = time.Since(start)
+	f.setSupernodes(sn)
 	if err := f.checkDuplicates(); err != nil {
 		return nil, err
 	}
@@ -301,7 +334,7 @@ func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Ke
 		return nil, &MemoryError{Estimate: f.memory, Limit: set.MaxMemory}
 	}
 	f.values = make([]float64, f.colStart[f.n])
-	start = time.Now()
+	start := time.Now()
 	if err := f.compute(ctx, set.Workers, report); err != nil {
 		return nil, err
 	}

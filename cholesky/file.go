@@ -23,7 +23,7 @@ package cholesky
 //	49      1         uint8    length-scale kind: 0 one length scale shared by all dimensions
 //	                           (s = 1), 1 one per dimension (s = d)
 //	50      1         uint8    selection of the nearest-neighbour pattern: 0 the m nearest, 1 greedy
-//	                           (version 2; 0 in version 1)
+//	                           per column, 2 greedy per supernode (version 2; 0 in version 1)
 //	51      1         -        reserved, zero
 //	52      4         uint32   candidates c of the greedy selection; 0 unless greedy (version 2)
 //	56      8         float64  variance σ² (0 means 1, as in kernels.Stationary)
@@ -121,7 +121,7 @@ func fileSize(n, d, nnz, scales uint64) uint64 {
 //	49      1         uint8    length-scale kind: 0 one length scale shared by all dimensions
 //	                           (s = 1), 1 one per dimension (s = d)
 //	50      1         uint8    selection of the nearest-neighbour pattern: 0 the m nearest, 1 greedy
-//	                           (version 2; 0 in version 1)
+//	                           per column, 2 greedy per supernode (version 2; 0 in version 1)
 //	51      1         -        reserved, zero
 //	52      4         uint32   candidates c of the greedy selection; 0 unless greedy (version 2)
 //	56      8         float64  variance σ² (0 means 1, as in kernels.Stationary)
@@ -166,7 +166,10 @@ func (f *Factor) WriteTo(w io.Writer) (int64, error) {
 		e.bytes([]byte{0})
 	}
 	var greedy byte
-	if f.greedy {
+	switch {
+	case f.joint:
+		greedy = 2
+	case f.greedy:
 		greedy = 1
 	}
 	e.bytes([]byte{greedy, 0})
@@ -394,9 +397,9 @@ func read(r io.Reader, size int64) (*Factor, error) {
 		return nil, fmt.Errorf("unknown length-scale kind %d (want 0 or 1)", kind)
 	case version == 1 && !bytes.Equal(h[50:56], make([]byte, 6)):
 		return nil, errors.New("reserved header bytes 50–55 are not zero")
-	case h[50] > 1 || h[51] != 0:
+	case h[50] > 2 || h[51] != 0:
 		return nil, fmt.Errorf("unknown pattern selection %d or reserved byte 51 = %d not zero", h[50], h[51])
-	case h[50] == 1 && neighbors == 0:
+	case h[50] != 0 && neighbors == 0:
 		return nil, errors.New("greedy selection without a number of neighbours m")
 	case h[50] == 0 && le.Uint32(h[52:]) != 0:
 		return nil, fmt.Errorf("%d greedy candidates for a pattern that is not greedy", le.Uint32(h[52:]))
@@ -424,7 +427,7 @@ func read(r io.Reader, size int64) (*Factor, error) {
 		k.LengthScale = ls[0]
 	}
 	f := &Factor{n: n, d: d, kernel: k, rho: rho, neighbors: int(neighbors), jittered: int(jittered),
-		greedy: h[50] == 1, candidates: int(le.Uint32(h[52:]))}
+		greedy: h[50] != 0, joint: h[50] == 2, candidates: int(le.Uint32(h[52:]))}
 	f.points = dec.f64s(n*d, "points")
 	order := dec.u32s(n, "order")
 	f.lengthScale = dec.f64s(n, "length scales")

@@ -267,6 +267,14 @@ func TestFileLayoutAsDocumented(t *testing.T) {
 	} else if greedy, c := back.Greedy(); !greedy || c != 9 {
 		t.Fatalf("read back greedy %v with %d candidates", greedy, c)
 	}
+	// A joint greedy factor records selection 2.
+	jg := encode(t, fileFactor(t, 60, 2, k, &Settings{Neighbors: 4, Greedy: true, JointGreedy: true, Lambda: 2}))
+	if jg[50] != 2 {
+		t.Fatalf("joint greedy selection byte %d, want 2", jg[50])
+	}
+	if back, err := Read(bytes.NewReader(jg)); err != nil || !back.JointGreedy() {
+		t.Fatalf("joint greedy read back: %v, err %v", back != nil && back.JointGreedy(), err)
+	}
 	// A version 1 file (this layout with bytes 50–55 zero) is still read.
 	v1 := bytes.Clone(b)
 	le.PutUint32(v1[8:], 1)
@@ -418,7 +426,7 @@ func TestReadBadHeader(t *testing.T) {
 		{"kind 2", func(c []byte) { c[49] = 2 }, "unknown length-scale kind 2"},
 		{"reserved", func(c []byte) { c[51] = 1 }, "reserved byte 51"},
 		{"candidates without greedy", func(c []byte) { c[53] = 1 }, "greedy candidates for a pattern that is not greedy"},
-		{"unknown selection", func(c []byte) { c[50] = 2 }, "unknown pattern selection 2"},
+		{"unknown selection", func(c []byte) { c[50] = 3 }, "unknown pattern selection 3"},
 		{"version 1 with a selection byte", func(c []byte) { binary.LittleEndian.PutUint32(c[8:], 1); c[50] = 1 }, "reserved header bytes 50–55"},
 	}
 	for _, c := range cases {

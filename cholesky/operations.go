@@ -36,6 +36,9 @@ func (f *Factor) Neighbors() int { return f.neighbors }
 // Greedy reports whether the rows were chosen greedily, and among how many candidates.
 func (f *Factor) Greedy() (greedy bool, candidates int) { return f.greedy, f.candidates }
 
+// JointGreedy reports whether the greedy sets were chosen per supernode for all its members.
+func (f *Factor) JointGreedy() bool { return f.joint }
+
 // Lambda returns the supernode aggregation parameter λ used (1: no aggregation).
 func (f *Factor) Lambda() float64 { return f.lambda }
 

@@ -69,21 +69,7 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 		out.Rows = slices.Clone(p.Rows)
 		return out
 	}
-	assigned := make([]bool, n)
-	out.Members = make([]int32, 0, n)
-	for j := range n {
-		if assigned[j] {
-			continue
-		}
-		limit := lambda * lengthScale[j]
-		for _, i := range p.Col(j) {
-			if !assigned[i] && lengthScale[i] <= limit {
-				assigned[i] = true
-				out.Members = append(out.Members, i)
-			}
-		}
-		out.MemberStart = append(out.MemberStart, int64(len(out.Members)))
-	}
+	out.MemberStart, out.Members = aggregateMembers(p, lengthScale, lambda)
 	supernodes := out.Len()
 	chunks := (supernodes + aggregateChunk - 1) / aggregateChunk
 	rows := make([][]int32, chunks)
@@ -137,6 +123,28 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 		out.Rows = append(out.Rows, buf...)
 	}
 	return out
+}
+
+// aggregateMembers is the membership pass of Aggregate: walking positions from the finest,
+// an unassigned column j takes the unassigned rows i of its column with ℓᵢ ≤ λ·ℓⱼ.
+func aggregateMembers(p *Pattern, lengthScale []float64, lambda float64) (memberStart []int64, members []int32) {
+	n := p.N()
+	assigned := make([]bool, n)
+	memberStart, members = []int64{0}, make([]int32, 0, n)
+	for j := range n {
+		if assigned[j] {
+			continue
+		}
+		limit := lambda * lengthScale[j]
+		for _, i := range p.Col(j) {
+			if !assigned[i] && lengthScale[i] <= limit {
+				assigned[i] = true
+				members = append(members, i)
+			}
+		}
+		memberStart = append(memberStart, int64(len(members)))
+	}
+	return memberStart, members
 }
 
 // Pattern returns the pattern the supernodes induce: member k of supernode J gets the rows

@@ -15,13 +15,13 @@ import (
 
 // benchOptions are the flags of kchol bench.
 type benchOptions struct {
-	config, output                                                         string
-	pointSets, kernels, rhos, neighbors, greedy, cgCases, scalingN, exactN string
-	sweepCase, lambdas, nuggetSweep, workerCounts                          string
-	n, denseLimit, workers                                                 int
-	lengthScale, lambda                                                    float64
-	seed                                                                   uint64
-	nystrom                                                                bool
+	config, output                                                                string
+	pointSets, kernels, rhos, neighbors, greedy, joint, cgCases, scalingN, exactN string
+	sweepCase, lambdas, nuggetSweep, workerCounts                                 string
+	n, denseLimit, workers                                                        int
+	lengthScale, lambda                                                           float64
+	seed                                                                          uint64
+	nystrom                                                                       bool
 }
 
 func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -40,6 +40,7 @@ func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writ
 	fs.StringVar(&o.lambdas, "lambdas", "1,1.25,1.5,2", "comma-separated `values` of λ for the supernode sweep (empty: none)")
 	fs.StringVar(&o.nuggetSweep, "nugget-sweep", "0,1e-4,1e-2", "comma-separated `nuggets` of the noise sweep at 2000 points (empty: none)")
 	fs.StringVar(&o.workerCounts, "worker-counts", "", "comma-separated worker `counts` of the timing sweep at 10⁵ points (default 1, 2, 4, … up to GOMAXPROCS; \"none\": none)")
+	fs.StringVar(&o.joint, "joint", "20,40,60", "comma-separated `values` of m (shared points per supernode) for the joint greedy pattern (empty: none)")
 	fs.Float64Var(&o.lambda, "lambda", 0, "supernode aggregation `λ` of every factor (0: the default 1.5; 1: none)")
 	fs.BoolVar(&o.nystrom, "nystrom", true, "compare with the equal-memory Nyström baseline")
 	fs.StringVar(&o.cgCases, "cg", "uniform/matern32", "comma-separated pointset/kernel `cases` with conjugate-gradient comparisons (empty: none)")
@@ -97,6 +98,11 @@ func benchConfig(fs *flag.FlagSet, o *benchOptions) (bench.Config, error) {
 	}
 	if use("greedy") {
 		if c.Greedy, err = parseList(o.greedy, "greedy", strconv.Atoi); err != nil {
+			return c, err
+		}
+	}
+	if use("joint") {
+		if c.JointGreedy, err = parseList(o.joint, "joint", strconv.Atoi); err != nil {
 			return c, err
 		}
 	}

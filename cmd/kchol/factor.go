@@ -21,7 +21,7 @@ type factorOptions struct {
 	variance, nugget, rho, lambda                float64
 	neighbors, workers, candidates               int
 	maxMemory                                    string
-	quiet, greedy                                bool
+	quiet, greedy, joint                         bool
 }
 
 func factorCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
@@ -36,6 +36,7 @@ func factorCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Wri
 	fs.IntVar(&o.neighbors, "neighbors", cholesky.DefaultNeighbors, "nearest-neighbour pattern (the default) with `m` nearest coarser points per column")
 	fs.Float64Var(&o.rho, "rho", 0, "radius pattern S_ρ with this `ρ` > 0 instead of nearest neighbours (inf: the full, exact factor)")
 	fs.BoolVar(&o.greedy, "greedy", false, "choose each column's m rows greedily among the nearest coarser points, by conditional variance (slower to build, more accurate per nonzero)")
+	fs.BoolVar(&o.joint, "joint", false, "with -greedy and -lambda > 1: choose one shared set of m points per supernode for all its members")
 	fs.IntVar(&o.candidates, "candidates", 0, "with -greedy: the number `c` of nearest coarser points to choose from; 0 means 4m")
 	fs.Float64Var(&o.lambda, "lambda", 1.5, "supernode aggregation `λ`: columns within a factor λ in length scale share one row set; 0 or 1 means none")
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
@@ -80,6 +81,8 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 		return 0, nil, nil, nil, usagef("factor: -neighbors %d, want ≥ 1", o.neighbors)
 	case set["rho"] && o.greedy:
 		return 0, nil, nil, nil, usagef("factor: -greedy selects among nearest neighbours; it cannot be combined with -rho")
+	case o.joint && !o.greedy:
+		return 0, nil, nil, nil, usagef("factor: -joint needs -greedy")
 	case set["candidates"] && !o.greedy:
 		return 0, nil, nil, nil, usagef("factor: -candidates needs -greedy")
 	case o.candidates < 0 || (set["candidates"] && o.candidates < o.neighbors):
@@ -106,7 +109,7 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 	}
 	// -lambda 0 means no aggregation; in cholesky.Settings that is any value ≤ 1, and 0
 	// means the default.
-	s := &cholesky.Settings{Neighbors: o.neighbors, Greedy: o.greedy, Candidates: o.candidates, Lambda: max(1, o.lambda), Workers: o.workers, MaxMemory: limit}
+	s := &cholesky.Settings{Neighbors: o.neighbors, Greedy: o.greedy, JointGreedy: o.joint, Candidates: o.candidates, Lambda: max(1, o.lambda), Workers: o.workers, MaxMemory: limit}
 	if set["rho"] {
 		s.Rho, s.Neighbors = o.rho, 0
 	}
@@ -203,6 +206,9 @@ func describe(f *cholesky.Factor) string {
 		pattern = fmt.Sprintf("nearest-neighbour pattern m = %d", f.Neighbors())
 		if greedy, c := f.Greedy(); greedy {
 			pattern = fmt.Sprintf("greedy pattern m = %d of %d candidates", f.Neighbors(), c)
+			if f.JointGreedy() {
+				pattern = fmt.Sprintf("joint greedy pattern, %d shared points per supernode of %d candidates", f.Neighbors(), c)
+			}
 		}
 	}
 	return fmt.Sprintf("N = %d, d = %d, %s, nnz = %d (%.1f per column)", f.N(), f.Dim(), pattern, f.NNZ(), float64(f.NNZ())/float64(f.N()))

@@ -119,3 +119,16 @@ func TestFactorGreedyFlags(t *testing.T) {
 		}
 	}
 }
+
+func TestFactorJointFlag(t *testing.T) {
+	dir := t.TempDir()
+	points := writeCSV(t, dir, "p.csv", []string{"x", "y"}, testPoints(800, 2))
+	out := filepath.Join(dir, "j.kchol")
+	code, _, stderr := runKchol("factor", "-points", points, "-kernel", "matern32", "-lengthscale", "0.2", "-neighbors", "12", "-greedy", "-joint", "-o", out)
+	if code != 0 || !strings.Contains(stderr, "joint greedy pattern, 12 shared points per supernode") {
+		t.Fatalf("-greedy -joint: exit %d, %q", code, stderr)
+	}
+	if code, _, stderr := runKchol("factor", "-points", points, "-kernel", "matern32", "-lengthscale", "0.2", "-joint", "-o", out); code != 2 || !strings.Contains(stderr, "-joint needs -greedy") {
+		t.Errorf("-joint alone: exit %d, %q", code, stderr)
+	}
+}
