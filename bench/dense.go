@@ -58,15 +58,27 @@ func NewDenseReference(ctx context.Context, points []float64, d int, k kernels.K
 	}
 	ref.FactorTime = time.Since(start)
 	ref.LogDet = ref.Cholesky.LogDet()
+	if c := ref.Cholesky.Cond(); !(c < maxDenseCondition) {
+		return nil, fmt.Errorf("%w: condition estimate %.3g ≥ %.0e, dense solves are meaningless (N = %d)", ErrDenseNotPositiveDefinite, c, maxDenseCondition, n)
+	}
 	return ref, nil
 }
+
+// maxDenseCondition is the largest condition estimate of a usable dense reference: beyond
+// about 1/ε ≈ 4.5·10¹⁵ a dense solve has no correct digits (a standard fact of floating-point
+// linear algebra, e.g. Higham 2002, §7.1); we stop at 10¹⁴.
+const maxDenseCondition = 1e14
 
 // Solve returns Θ⁻¹ b by gonum's dense Cholesky solve. Cost O(N²).
 func (r *DenseReference) Solve(b []float64) []float64 {
 	var x mat.VecDense
 	if err := r.Cholesky.SolveVecTo(&x, mat.NewVecDense(len(b), b)); err != nil {
-		// SolveVecTo fails only on a singular factor, which Factorize has excluded.
-		panic("bench: " + err.Error())
+		// gonum reports a condition number above 1/ε as mat.Condition, with the solution
+		// computed; NewDenseReference refuses such matrices, so anything else is a bug.
+		var cond mat.Condition
+		if !errors.As(err, &cond) {
+			panic("bench: " + err.Error())
+		}
 	}
 	return x.RawVector().Data
 }
