@@ -70,6 +70,12 @@ type Config struct {
 	CGTolerance float64 `json:"cg_tolerance"`
 	// CGMaxIterations is the CG iteration limit. 0 means 3000.
 	CGMaxIterations int `json:"cg_max_iterations"`
+	// CGNugget is the nugget σ² added to a CG case's kernel: CG then solves (Θ + σ²I) x = b
+	// with factors of Θ + σ²I. CG in floating point cannot bring the relative residual much
+	// below cond·ε (common practice; Golub and Van Loan, Matrix Computations, 4th ed., §11.3),
+	// so a tolerance of 1e-8 needs cond well below 1e8, which the nugget-free Matérn 3/2 case
+	// at length scale 0.1 (cond ≈ 2e11) does not have. nil means 1e-6; 0 none.
+	CGNugget *float64 `json:"cg_nugget"`
 	// ScalingN are the sizes of the time-against-N sweep (uniform 2D points, Matérn 3/2, the
 	// patterns ρ = 3 and m = 30). nil means 10³, 2·10³, 4·10³, 8·10³, 1.6·10⁴, 10⁵, 10⁶.
 	ScalingN []int `json:"scaling_n"`
@@ -149,6 +155,10 @@ func (c Config) WithDefaults() Config {
 	if c.CGMaxIterations == 0 {
 		c.CGMaxIterations = 3000
 	}
+	if c.CGNugget == nil {
+		v := 1e-6
+		c.CGNugget = &v
+	}
 	if c.ScalingN == nil {
 		c.ScalingN = []int{1000, 2000, 4000, 8000, 16000, 100000, 1000000}
 	}
@@ -178,6 +188,8 @@ func (c Config) Validate() error {
 		return fmt.Errorf("bench: CG tolerance %v, want in (0, 1)", c.CGTolerance)
 	case c.CGMaxIterations < 1:
 		return fmt.Errorf("bench: CG iteration limit %d, want ≥ 1", c.CGMaxIterations)
+	case !(*c.CGNugget >= 0) || math.IsInf(*c.CGNugget, 0):
+		return fmt.Errorf("bench: CG nugget %v, want ≥ 0", *c.CGNugget)
 	}
 	for _, p := range c.PointSets {
 		if !slices.Contains(PointSetNames, p) {
@@ -317,6 +329,10 @@ type CGRow struct {
 	PointSet string `json:"point_set"`
 	Kernel   string `json:"kernel"`
 	N        int    `json:"n"`
+	// Nugget is the kernel's nugget in this comparison (the case's own plus Config.CGNugget).
+	Nugget float64 `json:"nugget"`
+	// Cond is gonum's condition estimate of the operator Θ + σ²I.
+	Cond float64 `json:"cond"`
 	CGRun
 }
 
@@ -494,8 +510,10 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 		patterns = append(patterns, cholesky.Settings{Neighbors: m, Greedy: true, JointGreedy: true, Lambda: c.Lambda, Workers: c.Workers})
 	}
 	factors := map[string]*cholesky.Factor{}
+	settings := map[string]cholesky.Settings{}
 	var rows []FactorRow
 	for _, s := range patterns {
+		settings[patternName(s)] = s
 		f, elapsed, alloc, err := timedFactor(ctx, points, d, k, &s)
 		if err != nil {
 			if ctx.Err() != nil {
@@ -540,29 +558,72 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 		}
 	}
 	if slices.Contains(c.CGCases, ps+"/"+kn) {
-		set := &cholesky.IterativeSettings{Tolerance: c.CGTolerance, MaxIterations: c.CGMaxIterations}
-		type pc struct {
-			name     string
-			f        *cholesky.Factor
-			diagonal bool
+		if err := runCG(ctx, c, rep, ps, kn, points, d, k, ref, settings, factors, logf); err != nil {
+			return err
 		}
-		list := []pc{{"none", nil, false}, {"diagonal", nil, true}}
-		for _, name := range []string{"rho=2", "rho=3", "m=10", "m=20", "m=30", "greedy-m=10", "greedy-m=20"} {
-			if f, ok := factors[name]; ok {
-				list = append(list, pc{name, f, false})
+	}
+	return nil
+}
+
+// cgPreconditioners are the patterns compared as CG preconditioners, where the case has them.
+var cgPreconditioners = []string{"rho=2", "rho=3", "m=10", "m=20", "m=30", "greedy-m=10", "greedy-m=20"}
+
+// runCG compares CG with no preconditioner, the diagonal and the case's factors on one case.
+// With a CG nugget the operator is Θ + σ²I, with its own dense reference and factors.
+func runCG(ctx context.Context, c Config, rep *Report, ps, kn string, points []float64, d int, k kernels.Stationary, ref *DenseReference,
+	settings map[string]cholesky.Settings, factors map[string]*cholesky.Factor, logf func(string, ...any)) error {
+	if nugget := *c.CGNugget; nugget > 0 {
+		k.Nugget += nugget
+		logf("%s/%s: CG with nugget %g: dense reference", ps, kn, k.Nugget)
+		var err error
+		if ref, err = NewDenseReference(ctx, points, d, k, c.Workers); err != nil {
+			if ctx.Err() != nil {
+				return ctx.Err()
 			}
+			rep.Notes = append(rep.Notes, fmt.Sprintf("%s/%s: CG with nugget %g: %v; no CG table", ps, kn, k.Nugget, err))
+			return nil
 		}
-		for _, p := range list {
-			run, err := RunCG(ctx, ref, p.f, p.diagonal, p.name, set, c.Seed+200)
+		factors = map[string]*cholesky.Factor{}
+		for _, name := range cgPreconditioners {
+			s, ok := settings[name]
+			if !ok {
+				continue
+			}
+			f, err := cholesky.New(ctx, points, d, k, &s)
 			if err != nil {
-				return err
+				if ctx.Err() != nil {
+					return ctx.Err()
+				}
+				rep.Notes = append(rep.Notes, fmt.Sprintf("%s/%s/%s: CG preconditioner with nugget %g: %v", ps, kn, name, k.Nugget, err))
+				continue
 			}
-			if p.f != nil {
-				run.SetupSeconds = p.f.Timings().Ordering.Seconds() + p.f.Timings().Pattern.Seconds() + p.f.Timings().Factor.Seconds()
-			}
-			rep.CG = append(rep.CG, CGRow{PointSet: ps, Kernel: kn, N: n, CGRun: run})
-			logf("%s/%s: CG with %s: %d iterations, residual %.3g, %.1f s", ps, kn, p.name, run.Iterations, run.Residual, run.Seconds)
+			factors[name] = f
 		}
+	}
+	cond := ref.Cholesky.Cond()
+	set := &cholesky.IterativeSettings{Tolerance: c.CGTolerance, MaxIterations: c.CGMaxIterations}
+	type pc struct {
+		name     string
+		f        *cholesky.Factor
+		diagonal bool
+	}
+	list := []pc{{"none", nil, false}, {"diagonal", nil, true}}
+	for _, name := range cgPreconditioners {
+		if f, ok := factors[name]; ok {
+			list = append(list, pc{name, f, false})
+		}
+	}
+	for _, p := range list {
+		run, err := RunCG(ctx, ref, p.f, p.diagonal, p.name, set, c.Seed+200)
+		if err != nil {
+			return err
+		}
+		if p.f != nil {
+			tm := p.f.Timings()
+			run.SetupSeconds = tm.Ordering.Seconds() + tm.Pattern.Seconds() + tm.Aggregation.Seconds() + tm.Factor.Seconds()
+		}
+		rep.CG = append(rep.CG, CGRow{PointSet: ps, Kernel: kn, N: len(points) / d, Nugget: k.Nugget, Cond: cond, CGRun: run})
+		logf("%s/%s: CG with %s: %d iterations, residual %.3g, %.1f s", ps, kn, p.name, run.Iterations, run.Residual, run.Seconds)
 	}
 	return nil
 }

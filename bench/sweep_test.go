@@ -260,6 +260,19 @@ func TestRunWritesReport(t *testing.T) {
 			t.Errorf("%s: not an SVG (err %v)", name, err)
 		}
 	}
+	// CG runs on Θ + σ²I with the default CG nugget 1e-6 (matern12 has none of its own): every
+	// row says so, and CG with a factor of that operator converges on this small case.
+	if len(rep.CG) == 0 {
+		t.Error("no CG rows")
+	}
+	for _, x := range rep.CG {
+		if x.Nugget != 1e-6 || !(x.Cond >= 1) {
+			t.Errorf("CG row %s: nugget %g, cond %g; want 1e-6 and ≥ 1", x.Preconditioner, x.Nugget, x.Cond)
+		}
+		if x.Preconditioner != "none" && x.Preconditioner != "diagonal" && (!x.Converged || x.Error > 1e-4) {
+			t.Errorf("CG with %s: converged %v, error against dense %g", x.Preconditioner, x.Converged, x.Error)
+		}
+	}
 	if len(rep.Exact) != 1 || rep.Exact[0].Residual > 1e-10 || rep.Exact[0].ErrorVsDense > rep.Exact[0].Bound {
 		t.Errorf("exact solve row %+v", rep.Exact)
 	}
@@ -296,6 +309,7 @@ func TestConfigValidate(t *testing.T) {
 		{Rhos: []float64{-1}},
 		{Neighbors: []int{0}},
 		{CGCases: []string{"uniform"}},
+		{CGNugget: func() *float64 { v := -1e-6; return &v }()},
 		{ScalingN: []int{1}},
 		{Nuggets: map[string]float64{"matern12": -1}},
 	} {

@@ -19,12 +19,20 @@ type benchOptions struct {
 	pointSets, kernels, rhos, neighbors, greedy, joint, cgCases, scalingN, exactN string
 	sweepCase, lambdas, nuggetSweep, workerCounts                                 string
 	n, denseLimit, workers                                                        int
-	lengthScale, lambda                                                           float64
+	lengthScale, lambda, cgNugget                                                 float64
 	seed                                                                          uint64
 	nystrom                                                                       bool
 }
 
 func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writer, io.Writer) error) {
+	fs, o := newBenchFlags()
+	return fs, func(ctx context.Context, fs *flag.FlagSet, stdout, stderr io.Writer) error {
+		return runBench(ctx, fs, o, stdout, stderr)
+	}
+}
+
+// newBenchFlags returns the flags of kchol bench and the options they set.
+func newBenchFlags() (*flag.FlagSet, *benchOptions) {
 	fs := newFlagSet("bench")
 	o := &benchOptions{}
 	fs.StringVar(&o.config, "config", "", "JSON `file` describing the sweep (field names as in results.json's \"config\"); flags given override it")
@@ -44,14 +52,13 @@ func benchCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Writ
 	fs.Float64Var(&o.lambda, "lambda", 0, "supernode aggregation `λ` of every factor (0: the default 1.5; 1: none)")
 	fs.BoolVar(&o.nystrom, "nystrom", true, "compare with the equal-memory Nyström baseline")
 	fs.StringVar(&o.cgCases, "cg", "uniform/matern32", "comma-separated pointset/kernel `cases` with conjugate-gradient comparisons (empty: none)")
+	fs.Float64Var(&o.cgNugget, "cg-nugget", 1e-6, "nugget `σ²` added to the kernel of the conjugate-gradient cases (CG solves (Θ + σ²I) x = b; 0: none)")
 	fs.StringVar(&o.scalingN, "scaling-n", "1000,2000,4000,8000,16000,100000,1000000", "comma-separated `sizes` of the time-against-N sweep (empty: none)")
 	fs.StringVar(&o.exactN, "exact-n", "8000,20000", "comma-separated `sizes` of the exact iterative solve check (empty: none)")
 	fs.Uint64Var(&o.seed, "seed", 1, "`seed` of the point sets and right-hand sides")
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
 	fs.StringVar(&o.output, "o", "", "`directory` for report.md, results.json, the CSV tables and the SVG plots (required)")
-	return fs, func(ctx context.Context, fs *flag.FlagSet, stdout, stderr io.Writer) error {
-		return runBench(ctx, fs, o, stdout, stderr)
-	}
+	return fs, o
 }
 
 // benchConfig builds the sweep from the JSON file (if any) and the flags given.
@@ -134,6 +141,9 @@ func benchConfig(fs *flag.FlagSet, o *benchOptions) (bench.Config, error) {
 	}
 	if use("cg") {
 		c.CGCases = splitList(o.cgCases)
+	}
+	if use("cg-nugget") {
+		c.CGNugget = &o.cgNugget
 	}
 	if use("scaling-n") {
 		if c.ScalingN, err = parseList(o.scalingN, "scaling-n", strconv.Atoi); err != nil {
