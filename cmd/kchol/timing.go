@@ -20,6 +20,8 @@ import (
 // timingOptions are the flags of kchol timing.
 type timingOptions struct {
 	n, d, neighbors, workers int
+	candidates               int
+	greedy, joint            bool
 	points, kernel           string
 	lengthScale, rho, lambda float64
 	seed                     uint64
@@ -39,6 +41,9 @@ func timingCommand() (*flag.FlagSet, func(context.Context, *flag.FlagSet, io.Wri
 	fs.Float64Var(&o.lengthScale, "lengthscale", 0.01, "length `scale`")
 	fs.IntVar(&o.neighbors, "neighbors", cholesky.DefaultNeighbors, "nearest-neighbour pattern with `m` neighbours")
 	fs.Float64Var(&o.rho, "rho", 0, "radius pattern with this `ρ` instead")
+	fs.BoolVar(&o.greedy, "greedy", false, "choose each column's m rows greedily by conditional variance (as kchol factor -greedy)")
+	fs.BoolVar(&o.joint, "joint", false, "with -greedy and -lambda > 1: one shared set of m points per supernode")
+	fs.IntVar(&o.candidates, "candidates", 0, "with -greedy: the number `c` of nearest coarser points to choose from; 0 means 4m")
 	fs.Float64Var(&o.lambda, "lambda", 1.5, "supernode aggregation `λ` (0 or 1: none)")
 	fs.IntVar(&o.workers, "workers", 0, "number of goroutines; 0 means one per CPU")
 	fs.DurationVar(&o.potrfTime, "potrf-time", time.Second, "how long to measure gonum's Potrf at the median supernode size")
@@ -63,6 +68,14 @@ func runTiming(ctx context.Context, fs *flag.FlagSet, o *timingOptions, stdout, 
 		return usagef("timing: -lengthscale %v, want > 0", o.lengthScale)
 	case !(o.lambda == 0 || o.lambda >= 1):
 		return usagef("timing: -lambda %v, want 0, 1 or a value > 1", o.lambda)
+	case (o.greedy || o.joint) && set["rho"]:
+		return usagef("timing: -greedy and -joint choose among nearest neighbours: give -neighbors, not -rho")
+	case o.joint && !o.greedy:
+		return usagef("timing: -joint needs -greedy")
+	case set["candidates"] && !o.greedy:
+		return usagef("timing: -candidates needs -greedy")
+	case o.candidates < 0 || (set["candidates"] && o.candidates < o.neighbors):
+		return usagef("timing: -candidates %d, want at least -neighbors (%d)", o.candidates, o.neighbors)
 	}
 	var points []float64
 	switch o.points {
@@ -77,7 +90,7 @@ func runTiming(ctx context.Context, fs *flag.FlagSet, o *timingOptions, stdout, 
 	if workers == 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
-	s := &cholesky.Settings{Neighbors: o.neighbors, Lambda: max(1, o.lambda), Workers: workers}
+	s := &cholesky.Settings{Neighbors: o.neighbors, Greedy: o.greedy, JointGreedy: o.joint, Candidates: o.candidates, Lambda: max(1, o.lambda), Workers: workers}
 	if set["rho"] {
 		s.Rho, s.Neighbors = o.rho, 0
 	}
@@ -123,8 +136,14 @@ func runTiming(ctx context.Context, fs *flag.FlagSet, o *timingOptions, stdout, 
 
 // describePattern names the pattern of f.
 func describePattern(f *cholesky.Factor) string {
-	if f.Rho() != 0 {
+	greedy, candidates := f.Greedy()
+	switch {
+	case f.Rho() != 0:
 		return fmt.Sprintf("radius ρ = %g", f.Rho())
+	case f.JointGreedy():
+		return fmt.Sprintf("joint greedy m = %d per supernode, %d candidates", f.Neighbors(), candidates)
+	case greedy:
+		return fmt.Sprintf("greedy m = %d, %d candidates", f.Neighbors(), candidates)
 	}
 	return fmt.Sprintf("nearest neighbours m = %d", f.Neighbors())
 }
