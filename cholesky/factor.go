@@ -384,15 +384,23 @@ func (f *Factor) setSupernodes(sn *ordering.Supernodes) {
 	}
 }
 
-// progress returns a serialised Progress callback, or one that does nothing.
+// progress returns a serialised Progress callback, or one that does nothing. Workers report
+// concurrently, so a report can arrive after a later one of the same phase; it drops such a
+// report, so that Done never goes back within a phase.
 func (s Settings) progress() func(Progress) {
 	if s.Progress == nil {
 		return func(Progress) {}
 	}
 	var mu sync.Mutex
+	var last Progress
+	started := false
 	return func(p Progress) {
 		mu.Lock()
 		defer mu.Unlock()
+		if started && p.Phase == last.Phase && p.Done < last.Done {
+			return
+		}
+		started, last = true, p
 		s.Progress(p)
 	}
 }

@@ -93,3 +93,29 @@ func TestFlopsAndPotrfRate(t *testing.T) {
 		t.Errorf("Potrf rate %v", rate)
 	}
 }
+
+func TestProgressDropsLateReports(t *testing.T) {
+	// Two workers can hand in their reports out of order; the callback must never see Done
+	// go back within a phase, while a new phase starts again from 0.
+	var seen []Progress
+	report := Settings{Progress: func(p Progress) { seen = append(seen, p) }}.progress()
+	for _, p := range []Progress{{PhaseFactor, 0, 9}, {PhaseFactor, 5, 9}, {PhaseFactor, 3, 9}, {PhaseFactor, 9, 9}} {
+		report(p)
+	}
+	want := []Progress{{PhaseFactor, 0, 9}, {PhaseFactor, 5, 9}, {PhaseFactor, 9, 9}}
+	if len(seen) != len(want) {
+		t.Fatalf("callback saw %v, want %v", seen, want)
+	}
+	for i := range want {
+		if seen[i] != want[i] {
+			t.Fatalf("callback saw %v, want %v", seen, want)
+		}
+	}
+	seen = nil
+	report = Settings{Progress: func(p Progress) { seen = append(seen, p) }}.progress()
+	report(Progress{PhaseOrdering, 1, 1})
+	report(Progress{PhasePattern, 0, 1})
+	if len(seen) != 2 {
+		t.Errorf("a new phase starting at 0 was dropped: %v", seen)
+	}
+}
