@@ -165,11 +165,12 @@ func profile(f Family, r2 float64) float64 {
 func (k Stationary) FillBlock(dst []float64, stride int, x []float64, rows, cols []int32) {
 	checkBlock(len(dst), stride, len(rows), len(cols))
 	var invBuf [4]float64
+	var scratch [profileChunk]float64
 	inv, v := k.appendInverseScales(invBuf[:0]), k.variance()
 	for a, i := range rows {
 		row := dst[a*stride : a*stride+len(cols)]
 		sqDistances(row, x, inv, i, cols)
-		applyProfile(k.Family, v, row)
+		applyProfile(k.Family, v, row, scratch[:])
 		if k.Nugget != 0 {
 			for b, j := range cols {
 				if i == j {
@@ -184,6 +185,7 @@ func (k Stationary) FillBlock(dst []float64, stride int, x []float64, rows, cols
 func (k Stationary) FillLower(dst []float64, stride int, x []float64, idx []int32) {
 	checkBlock(len(dst), stride, len(idx), len(idx))
 	var invBuf [4]float64
+	var scratch [profileChunk]float64
 	inv, v := k.appendInverseScales(invBuf[:0]), k.variance()
 	d := len(inv)
 	// Gather the block's points, scaled by 1/ℓ, into a contiguous local array when they fit
@@ -200,7 +202,7 @@ func (k Stationary) FillLower(dst []float64, stride int, x []float64, idx []int3
 		for a := range idx {
 			row := dst[a*stride : a*stride+a+1]
 			sqDistancesLocal(row, scaled, d, a)
-			applyProfile(k.Family, v, row)
+			applyProfile(k.Family, v, row, scratch[:])
 			row[a] += k.Nugget
 		}
 		return
@@ -208,7 +210,7 @@ func (k Stationary) FillLower(dst []float64, stride int, x []float64, idx []int3
 	for a, i := range idx {
 		row := dst[a*stride : a*stride+a+1]
 		sqDistances(row, x, inv, i, idx[:a+1])
-		applyProfile(k.Family, v, row)
+		applyProfile(k.Family, v, row, scratch[:])
 		row[a] += k.Nugget
 	}
 }
@@ -291,28 +293,46 @@ func sqDistances(dst, x, inv []float64, i int32, cols []int32) {
 	}
 }
 
-// applyProfile replaces each squared scaled distance in row by v·f(r).
-func applyProfile(f Family, v float64, row []float64) {
-	switch f {
-	case Matern12:
-		for b, r2 := range row {
-			row[b] = v * expNonPositive(-math.Sqrt(r2))
+// profileChunk is the scratch length the filling loops pass to applyProfile.
+const profileChunk = 256
+
+// applyProfile replaces each squared scaled distance in row by v·f(r), in chunks of
+// len(scratch) entries: first the arguments of the exponential into scratch, then the
+// exponentials of a whole chunk at once (expNegatives), then the polynomial factor.
+func applyProfile(f Family, v float64, row, scratch []float64) {
+	for len(row) > 0 {
+		c := row[:min(len(row), len(scratch))]
+		s := scratch[:len(c)]
+		switch f {
+		case Matern12:
+			sqrtScaled(s, c, 1)
+			expNegatives(c, s)
+			for b, e := range c {
+				c[b] = v * e
+			}
+		case Matern32:
+			sqrtScaled(s, c, 3)
+			expNegatives(c, s)
+			for b, t := range s {
+				c[b] = v * (1 + t) * c[b]
+			}
+		case Matern52:
+			sqrtScaled(s, c, 5)
+			expNegatives(c, s)
+			for b, t := range s {
+				c[b] = v * (1 + t + t*t/3) * c[b]
+			}
+		case Gaussian:
+			for b, r2 := range c {
+				s[b] = r2 / 2
+			}
+			expNegatives(c, s)
+			for b, e := range c {
+				c[b] = v * e
+			}
+		default:
+			panic("kernels: unknown family")
 		}
-	case Matern32:
-		for b, r2 := range row {
-			s := math.Sqrt(3 * r2)
-			row[b] = v * (1 + s) * expNonPositive(-s)
-		}
-	case Matern52:
-		for b, r2 := range row {
-			s := math.Sqrt(5 * r2)
-			row[b] = v * (1 + s + s*s/3) * expNonPositive(-s)
-		}
-	case Gaussian:
-		for b, r2 := range row {
-			row[b] = v * expNonPositive(-r2/2)
-		}
-	default:
-		panic("kernels: unknown family")
+		row = row[len(c):]
 	}
 }

@@ -1,0 +1,141 @@
+package kernels
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+)
+
+func TestExpNegativeScalarMatchesMathExp(t *testing.T) {
+	// Reference: the standard library's math.Exp (error below 1 ulp, by the error analysis in
+	// the comments of its source, math/exp.go, taken from FreeBSD's e_exp.c). We accept 4 ulp
+	// relative.
+	const tolerance = 4 * 0x1p-52
+	rng := rand.New(rand.NewPCG(3, 3))
+	worst := 0.0
+	check := func(s float64) {
+		got, want := expNegativeScalar(s), math.Exp(-s)
+		if want == 0 {
+			if got != 0 {
+				t.Fatalf("e^−%v = %v, want 0", s, got)
+			}
+			return
+		}
+		e := math.Abs(got-want) / want
+		worst = max(worst, e)
+		if e > tolerance {
+			t.Fatalf("e^−%v = %.17g, math.Exp %.17g (relative %.3g)", s, got, want, e)
+		}
+	}
+	for i := range 200000 {
+		check(float64(i) * 1e-5)
+		check(40 * rng.Float64())
+		check(750 * rng.Float64())
+	}
+	for _, s := range []float64{0, math.Copysign(0, -1), 1e-300, 0.5 * math.Ln2, math.Ln2, 707.9, 708, 708.1, 745, 746, math.Inf(1)} {
+		check(s)
+	}
+	if !math.IsNaN(expNegativeScalar(math.NaN())) {
+		t.Error("e^−NaN is not NaN")
+	}
+	t.Logf("worst relative error %.3g (%.2f ulp)", worst, worst/0x1p-52)
+}
+
+func TestExpNegativesMatchesScalar(t *testing.T) {
+	// The row routine (SSE2 pairs on amd64) must give the bits of expNegativeScalar for
+	// every entry, including the odd last one and entries outside [0, 708].
+	rng := rand.New(rand.NewPCG(4, 4))
+	for _, n := range []int{0, 1, 2, 3, 7, 64, 1001} {
+		src := make([]float64, n)
+		for i := range src {
+			switch rng.IntN(8) {
+			case 0:
+				src[i] = 750 * rng.Float64()
+			case 1:
+				src[i] = []float64{0, math.Copysign(0, -1), 708, 708.5, -1, math.Inf(1), math.NaN(), 1e-300}[rng.IntN(8)]
+			default:
+				src[i] = 5 * rng.Float64()
+			}
+		}
+		dst := make([]float64, n)
+		expNegatives(dst, src)
+		for i, s := range src {
+			want := expNegativeScalar(s)
+			if math.Float64bits(dst[i]) != math.Float64bits(want) && !(math.IsNaN(dst[i]) && math.IsNaN(want)) {
+				t.Fatalf("n=%d: e^−%v = %v (bits %#x), scalar %v (bits %#x)", n, s, dst[i], math.Float64bits(dst[i]), want, math.Float64bits(want))
+			}
+		}
+	}
+	// Exhaustive over a fine grid of [0, 708]: pairs of neighbouring inputs.
+	src := make([]float64, 1<<16)
+	for i := range src {
+		src[i] = 708 * float64(i) / float64(len(src)-1)
+	}
+	dst := make([]float64, len(src))
+	expNegatives(dst, src)
+	for i, s := range src {
+		if want := expNegativeScalar(s); dst[i] != want {
+			t.Fatalf("e^−%v = %v, scalar %v", s, dst[i], want)
+		}
+	}
+}
+
+func BenchmarkExpNegatives(b *testing.B) {
+	src := make([]float64, 1024)
+	for i := range src {
+		src[i] = float64(i) / 256
+	}
+	dst := make([]float64, len(src))
+	b.Run("rows", func(b *testing.B) {
+		for b.Loop() {
+			expNegatives(dst, src)
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(len(src)), "ns/entry")
+	})
+	b.Run("scalar", func(b *testing.B) {
+		for b.Loop() {
+			for i, s := range src {
+				dst[i] = expNegativeScalar(s)
+			}
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(len(src)), "ns/entry")
+	})
+	b.Run("math.Exp", func(b *testing.B) {
+		for b.Loop() {
+			for i, s := range src {
+				dst[i] = math.Exp(-s)
+			}
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(len(src)), "ns/entry")
+	})
+}
+
+func TestSqrtScaledMatchesMathSqrt(t *testing.T) {
+	// SQRTPD and MULPD are correctly rounded IEEE operations, as math.Sqrt and * are (the Go
+	// specification and IEEE 754), so the bits must agree for every entry and length.
+	rng := rand.New(rand.NewPCG(5, 5))
+	for _, n := range []int{0, 1, 2, 5, 64, 333} {
+		for _, c := range []float64{1, 3, 5} {
+			src := make([]float64, n)
+			for i := range src {
+				src[i] = math.Ldexp(rng.Float64(), rng.IntN(40)-20)
+			}
+			if n > 3 {
+				src[0], src[1], src[2] = 0, math.Inf(1), math.MaxFloat64
+			}
+			dst := make([]float64, n)
+			sqrtScaled(dst, src, c)
+			for i, s := range src {
+				if want := math.Sqrt(c * s); math.Float64bits(dst[i]) != math.Float64bits(want) {
+					t.Fatalf("n=%d c=%g: √(c·%v) = %v, math.Sqrt %v", n, c, s, dst[i], want)
+				}
+			}
+			sqrtScaled(src, src, c) // in place
+			for i := range src {
+				if src[i] != dst[i] {
+					t.Fatalf("n=%d c=%g: in place entry %d = %v, want %v", n, c, i, src[i], dst[i])
+				}
+			}
+		}
+	}
+}
