@@ -55,6 +55,22 @@ func flagsSet(fs *flag.FlagSet) map[string]bool {
 	return set
 }
 
+// checkGreedyFlags validates -greedy, -joint and -candidates against the pattern flags, for
+// the commands that build factors (factor, timing).
+func checkGreedyFlags(command string, set map[string]bool, greedy, joint bool, neighbors, candidates int) error {
+	switch {
+	case set["rho"] && greedy:
+		return usagef("%s: -greedy selects among nearest neighbours; it cannot be combined with -rho", command)
+	case joint && !greedy:
+		return usagef("%s: -joint needs -greedy", command)
+	case set["candidates"] && !greedy:
+		return usagef("%s: -candidates needs -greedy", command)
+	case candidates < 0 || (set["candidates"] && candidates < neighbors):
+		return usagef("%s: -candidates %d, want at least -neighbors (%d)", command, candidates, neighbors)
+	}
+	return nil
+}
+
 // checkFactorFlags validates the flags that do not depend on the points.
 func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []float64, []string, *cholesky.Settings, error) {
 	for _, name := range []string{"points", "kernel", "lengthscale", "o"} {
@@ -79,14 +95,6 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 		return 0, nil, nil, nil, usagef("factor: -neighbors and -rho are mutually exclusive: give one pattern")
 	case set["neighbors"] && o.neighbors < 1:
 		return 0, nil, nil, nil, usagef("factor: -neighbors %d, want ≥ 1", o.neighbors)
-	case set["rho"] && o.greedy:
-		return 0, nil, nil, nil, usagef("factor: -greedy selects among nearest neighbours; it cannot be combined with -rho")
-	case o.joint && !o.greedy:
-		return 0, nil, nil, nil, usagef("factor: -joint needs -greedy")
-	case set["candidates"] && !o.greedy:
-		return 0, nil, nil, nil, usagef("factor: -candidates needs -greedy")
-	case o.candidates < 0 || (set["candidates"] && o.candidates < o.neighbors):
-		return 0, nil, nil, nil, usagef("factor: -candidates %d, want at least -neighbors (%d)", o.candidates, o.neighbors)
 	case set["rho"] && !(o.rho > 0):
 		return 0, nil, nil, nil, usagef("factor: -rho %v, want a value > 0 (or inf)", o.rho)
 	case o.workers < 0:
@@ -95,6 +103,9 @@ func checkFactorFlags(o *factorOptions, set map[string]bool) (kernels.Family, []
 		return 0, nil, nil, nil, usagef("factor: -lambda %v, want 0, 1 (no aggregation) or a finite value > 1", o.lambda)
 	case o.output == "":
 		return 0, nil, nil, nil, usagef("factor: -o is empty")
+	}
+	if err := checkGreedyFlags("factor", set, o.greedy, o.joint, o.neighbors, o.candidates); err != nil {
+		return 0, nil, nil, nil, err
 	}
 	var columns []string
 	if set["columns"] {

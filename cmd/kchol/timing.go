@@ -68,14 +68,9 @@ func runTiming(ctx context.Context, fs *flag.FlagSet, o *timingOptions, stdout, 
 		return usagef("timing: -lengthscale %v, want > 0", o.lengthScale)
 	case !(o.lambda == 0 || o.lambda >= 1):
 		return usagef("timing: -lambda %v, want 0, 1 or a value > 1", o.lambda)
-	case (o.greedy || o.joint) && set["rho"]:
-		return usagef("timing: -greedy and -joint choose among nearest neighbours: give -neighbors, not -rho")
-	case o.joint && !o.greedy:
-		return usagef("timing: -joint needs -greedy")
-	case set["candidates"] && !o.greedy:
-		return usagef("timing: -candidates needs -greedy")
-	case o.candidates < 0 || (set["candidates"] && o.candidates < o.neighbors):
-		return usagef("timing: -candidates %d, want at least -neighbors (%d)", o.candidates, o.neighbors)
+	}
+	if err := checkGreedyFlags("timing", set, o.greedy, o.joint, o.neighbors, o.candidates); err != nil {
+		return err
 	}
 	var points []float64
 	switch o.points {
