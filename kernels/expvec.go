@@ -10,20 +10,15 @@ import "math"
 func expNegatives(dst, src []float64) {
 	dst = dst[:len(src)]
 	pairs := 0
-	if haveExpPairs {
+	if haveSSE2Rows {
 		pairs = len(src) / 2
 		if pairs > 0 {
 			expNegativePairs(&dst[0], &src[0], pairs)
 		}
 	}
-	for i := 2 * pairs; i < len(src); i++ {
-		dst[i] = expNegativeScalar(src[i])
-	}
-	if pairs > 0 {
-		for i, s := range src[:2*pairs] {
-			if !(s >= 0 && s <= 708) {
-				dst[i] = expNegativeScalar(s)
-			}
+	for i, s := range src {
+		if i >= 2*pairs || !(s >= 0 && s <= 708) {
+			dst[i] = expNegativeScalar(s)
 		}
 	}
 }
@@ -34,7 +29,7 @@ func expNegatives(dst, src []float64) {
 func sqrtScaled(dst, src []float64, c float64) {
 	dst = dst[:len(src)]
 	pairs := 0
-	if haveExpPairs {
+	if haveSSE2Rows {
 		pairs = len(src) / 2
 		if pairs > 0 {
 			sqrtScaledPairs(&dst[0], &src[0], pairs, c)
@@ -62,7 +57,7 @@ const (
 // relative on that interval), then the exact scaling by 2ᵏ, whose exponent field is read off
 // the rounded sum's low bits. Above 708 it defers to math.Exp, which handles the subnormal
 // range. The explicit float64 conversions keep every operation separately rounded, as the
-// SSE2 routine computes them. Measured against math.Exp in exp_test.go.
+// SSE2 routine computes them. Measured against math.Exp in expvec_test.go.
 func expNegativeScalar(s float64) float64 {
 	if !(s >= 0 && s <= 708) {
 		return math.Exp(-s) // subnormal results, +Inf, NaN, and s < 0

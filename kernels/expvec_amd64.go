@@ -2,9 +2,9 @@
 
 package kernels
 
-// haveExpPairs: SSE2 is part of every amd64 processor. Build with -tags purego for the
+// haveSSE2Rows: SSE2 is part of every amd64 processor. Build with -tags purego for the
 // portable Go code only.
-const haveExpPairs = true
+const haveSSE2Rows = true
 
 // expNegativePairs sets dst[i] = e^(−src[i]) for i < 2·pairs, bit for bit as
 // expNegativeScalar, for src[i] in [0, 708]; other entries get unspecified values (the

@@ -2,7 +2,7 @@
 
 package kernels
 
-const haveExpPairs = false
+const haveSSE2Rows = false
 
 func expNegativePairs(dst, src *float64, pairs int) { panic("kernels: no vector exponential") }
 
