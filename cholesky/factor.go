@@ -420,7 +420,7 @@ func (f *Factor) estimateMemory(workers int) int64 {
 	n, s := int64(f.n), int64(len(f.memberStart)-1)
 	u := int64(f.maxRowSet())
 	return 8*f.colStart[f.n] + 4*int64(len(f.rows)) + 8*(n+1) + 8*n + 4*n + 16*(s+1) +
-		8*n*int64(f.d) + 24*n + int64(workers)*(8*u*u+4*u)
+		8*n*int64(f.d) + 24*n + int64(workers)*(8*u*u+8*memberGroup*u+4*u)
 }
 
 // col returns column j's rows (ascending positions, the first being j) and values.
@@ -513,8 +513,11 @@ type workspace struct {
 	index  []int32
 }
 
+// memberGroup is the number of member columns solved together (memberColumns).
+const memberGroup = 4
+
 func newWorkspace(maxRows int) *workspace {
-	return &workspace{block: make([]float64, maxRows*maxRows), vector: make([]float64, maxRows), index: make([]int32, maxRows)}
+	return &workspace{block: make([]float64, maxRows*maxRows), vector: make([]float64, memberGroup*maxRows), index: make([]int32, maxRows)}
 }
 
 // axpyNegative sets y −= a·x; len(x) must equal len(y).
@@ -534,7 +537,7 @@ var jitters = [...]float64{0, 1e-12, 1e-10, 1e-8}
 // JCJ upper triangular, and member k at index t of U gets L_{U,k} = J C⁻ᵀ e_{u−1−t}, whose
 // entries above t vanish: one back substitution with the leading (u−t)×(u−t) block of Cᵀ
 // (DESIGN.md §4). It returns the number of members that needed a jitter (all or none).
-// Cost O(u³/3 + Σ_k (u−t_k)²).
+// Cost O(u³/3 + Σ_k (u−t_k)²). The back substitutions run in groups (memberColumns).
 func (f *Factor) supernode(s int, w *workspace) (int, error) {
 	rows := f.rows[f.superRowStart[s]:f.superRowStart[s+1]]
 	members := f.members[f.memberStart[s]:f.memberStart[s+1]]
@@ -559,29 +562,8 @@ func (f *Factor) supernode(s int, w *workspace) (int, error) {
 		if !ok {
 			continue
 		}
-		for _, k := range members {
-			_, vals := f.col(int(k))
-			m := len(vals) // = u − t
-			// Solve C_mᵀ v = e_{m−1} with C_m the leading m×m block of C (reversed
-			// indices), by columns of Cᵀ, i.e. contiguous rows of C: for k = m−1 … 0,
-			// v_k = w_k / C_kk and w_{0:k} −= v_k·C_{k,0:k}. Then vals[q] = v_{m−1−q}.
-			v := w.vector[:m]
-			clear(v)
-			v[m-1] = 1
-			for r := m - 1; r >= 0; r-- {
-				row := c.Data[r*u : r*u+r+1]
-				vr := v[r] / row[r]
-				v[r] = vr
-				axpyNegative(v[:r], vr, row[:r])
-			}
-			for q := range vals {
-				vals[q] = v[m-1-q]
-			}
-			for _, x := range vals {
-				if math.IsNaN(x) || math.IsInf(x, 0) {
-					return 0, fmt.Errorf("cholesky: column of point %d is not finite", f.order[k])
-				}
-			}
+		if err := f.memberColumns(c.Data, u, members, w); err != nil {
+			return 0, err
 		}
 		if attempt > 0 {
 			return len(members), nil
@@ -590,4 +572,99 @@ func (f *Factor) supernode(s int, w *workspace) (int, error) {
 	}
 	j := members[0]
 	return 0, fmt.Errorf("cholesky: the local kernel matrix of point %d (%d rows, length scale %.3g) is not numerically positive definite even with jitter %g; points may nearly coincide: set a nugget", f.order[j], u, f.lengthScale[j], jitters[len(jitters)-1])
+}
+
+// memberColumns writes the columns of members from the Cholesky factor c (u×u, lower, row-major,
+// reversed row set; see supernode). Member k with m = len(vals) solves C_mᵀ v = e_{m−1}: for
+// r = m−1 … 0, v_r = w_r / C_rr and w_{0:r} −= v_r·C_{r,0:r}; then vals[q] = v_{m−1−q}.
+//
+// Up to memberGroup members run through one loop over r, their vectors interleaved, so each
+// row of C is read once per group instead of once per member. A member whose m is below the
+// group's largest starts with zeros above its unit entry, so the steps r ≥ m add exact zeros
+// to it (v_r = 0/C_rr = 0, then w −= 0·C) and its arithmetic is the same, operation for
+// operation, as a solve on its own.
+func (f *Factor) memberColumns(c []float64, u int, members []int32, w *workspace) error {
+	for len(members) > 0 {
+		width := 1
+		switch {
+		case len(members) >= 4:
+			width = 4
+		case len(members) >= 2:
+			width = 2
+		}
+		group := members[:width]
+		members = members[width:]
+		top := 0
+		for _, k := range group {
+			top = max(top, int(f.colStart[k+1]-f.colStart[k]))
+		}
+		v := w.vector[:top*width]
+		clear(v)
+		for i, k := range group {
+			m := int(f.colStart[k+1] - f.colStart[k])
+			v[(m-1)*width+i] = 1
+		}
+		switch width {
+		case 4:
+			backSubstitute4(c, u, top, v)
+		case 2:
+			backSubstitute2(c, u, top, v)
+		default:
+			for r := top - 1; r >= 0; r-- {
+				row := c[r*u : r*u+r+1]
+				vr := v[r] / row[r]
+				v[r] = vr
+				axpyNegative(v[:r], vr, row[:r])
+			}
+		}
+		for i, k := range group {
+			_, vals := f.col(int(k))
+			m := len(vals)
+			for q := range vals {
+				x := v[(m-1-q)*width+i]
+				if math.IsNaN(x) || math.IsInf(x, 0) {
+					return fmt.Errorf("cholesky: column of point %d is not finite", f.order[k])
+				}
+				vals[q] = x
+			}
+		}
+	}
+	return nil
+}
+
+// backSubstitute4 runs the loop of memberColumns for four interleaved vectors
+// (v[4j+i] is entry j of vector i).
+func backSubstitute4(c []float64, u, top int, v []float64) {
+	for r := top - 1; r >= 0; r-- {
+		row := c[r*u : r*u+r+1]
+		d := row[r]
+		x := v[4*r : 4*r+4]
+		a0, a1, a2, a3 := x[0]/d, x[1]/d, x[2]/d, x[3]/d
+		x[0], x[1], x[2], x[3] = a0, a1, a2, a3
+		w := v[:4*r]
+		for j, cj := range row[:r] {
+			y := w[4*j : 4*j+4 : 4*j+4]
+			y[0] -= a0 * cj
+			y[1] -= a1 * cj
+			y[2] -= a2 * cj
+			y[3] -= a3 * cj
+		}
+	}
+}
+
+// backSubstitute2 is backSubstitute4 for two vectors.
+func backSubstitute2(c []float64, u, top int, v []float64) {
+	for r := top - 1; r >= 0; r-- {
+		row := c[r*u : r*u+r+1]
+		d := row[r]
+		x := v[2*r : 2*r+2]
+		a0, a1 := x[0]/d, x[1]/d
+		x[0], x[1] = a0, a1
+		w := v[:2*r]
+		for j, cj := range row[:r] {
+			y := w[2*j : 2*j+2 : 2*j+2]
+			y[0] -= a0 * cj
+			y[1] -= a1 * cj
+		}
+	}
 }

@@ -9,6 +9,9 @@ import (
 
 	"github.com/kchol/kchol/kernels"
 	"github.com/kchol/kchol/ordering"
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
 )
 
 func TestSupernodalEqualsColumnwiseOnAggregatedPattern(t *testing.T) {
@@ -203,6 +206,57 @@ func TestJointGreedyAgainstPerColumnAtEqualNNZ(t *testing.T) {
 				}
 				t.Logf("%v n=%d %s m=%d: nnz/N %.1f, KL %.4g", family, n, c.name, m, float64(f.NNZ())/float64(n), kl)
 			}
+		}
+	}
+}
+
+func TestGroupedMemberSolvesMatchSingleSolves(t *testing.T) {
+	// memberColumns solves up to memberGroup members in one pass and documents that each
+	// member's arithmetic is then the same as a solve on its own. Check it bit for bit: redo
+	// every supernode's local Cholesky here and solve its members one at a time. (Correctness
+	// of the columns themselves is checked against the per-column formula above.)
+	for _, set := range []Settings{{Rho: 3}, {Neighbors: 20}, {Neighbors: 30, Lambda: 2}} {
+		points := uniformPoints(2000, 2, 44)
+		k := kernels.Stationary{Family: kernels.Matern32, Dimension: 2, LengthScale: 0.1}
+		f, err := New(context.Background(), points, 2, k, &set)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if f.jittered != 0 {
+			t.Fatalf("%+v: %d jittered columns; the check needs none", set, f.jittered)
+		}
+		computed := slices.Clone(f.values)
+		w := newWorkspace(f.maxRowSet())
+		groups := map[int]int{}
+		for s := range len(f.memberStart) - 1 {
+			rows := f.rows[f.superRowStart[s]:f.superRowStart[s+1]]
+			members := f.members[f.memberStart[s]:f.memberStart[s+1]]
+			groups[min(len(members), 5)]++
+			u := len(rows)
+			idx := make([]int32, u)
+			for a, r := range rows {
+				idx[u-1-a] = r
+			}
+			a := make([]float64, u*u)
+			kernels.FillLower(f.kernel, a, u, f.points, idx)
+			c, ok := lapack64.Potrf(blas64.Symmetric{Uplo: blas.Lower, N: u, Stride: u, Data: a})
+			if !ok {
+				t.Fatalf("supernode %d: Potrf failed", s)
+			}
+			for i := range members {
+				if err := f.memberColumns(c.Data, u, members[i:i+1], w); err != nil {
+					t.Fatal(err)
+				}
+			}
+		}
+		for i := range computed {
+			if math.Float64bits(computed[i]) != math.Float64bits(f.values[i]) {
+				t.Fatalf("%+v: value %d is %v grouped, %v alone", set, i, computed[i], f.values[i])
+			}
+		}
+		// The check means something only if groups of 2 and 4 (and a remainder) occur.
+		if groups[2]+groups[3] == 0 || groups[4]+groups[5] == 0 {
+			t.Fatalf("%+v: supernodes by member count (5 = 5 or more) %v: no grouped solves", set, groups)
 		}
 	}
 }
