@@ -141,21 +141,34 @@ func maximinHeapSearch(tree searcher, points []float64, d int, initial []float64
 // tree order, so the updates touch memory locally. initial holds the starting distances by
 // input index, −Inf for points already picked.
 func maximinTournament(t *flatTree, initial []float64, record func(int32, float64)) {
+	if len(t.nodes) == 0 {
+		return
+	}
+	d := t.d
 	m := tournament{
-		t:    t,
-		dist: make([]float64, len(t.index)),
-		best: make([]tournamentBest, len(t.nodes)),
+		t:     t,
+		dist:  make([]float64, len(t.index)),
+		nodes: make([]tournamentNode, len(t.nodes)),
 	}
 	for s, i := range t.index {
 		m.dist[s] = initial[i]
 	}
+	for b, node := range t.nodes {
+		r := &m.nodes[b]
+		r.start, r.end, r.left, r.right = node.start, node.end, node.left, node.right
+		if d <= tournamentInlineDims {
+			box := t.boxes[2*d*b : 2*d*(b+1)]
+			for k := range d {
+				r.box[2*k], r.box[2*k+1] = box[k], box[d+k]
+			}
+		}
+	}
 	// Children have larger ids than their parent (pre-order build): refresh bottom-up.
-	for b := len(t.nodes) - 1; b >= 0; b-- {
+	for b := len(m.nodes) - 1; b >= 0; b-- {
 		m.refresh(int32(b))
 	}
-	d := t.d
-	for len(t.nodes) > 0 && m.best[0].slot >= 0 {
-		top := m.best[0]
+	for m.nodes[0].best.slot >= 0 {
+		top := m.nodes[0].best
 		record(top.index, top.dist)
 		m.dist[top.slot] = math.Inf(-1)
 		m.update(0, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot)
@@ -163,9 +176,25 @@ func maximinTournament(t *flatTree, initial []float64, record func(int32, float6
 }
 
 type tournament struct {
-	t    *flatTree
-	dist []float64        // by tree slot; −Inf once picked
-	best []tournamentBest // by node: the unpicked point to pick first below it
+	t     *flatTree
+	dist  []float64        // by tree slot; −Inf once picked
+	nodes []tournamentNode // by node id, as t.nodes
+}
+
+// tournamentInlineDims is the most dimensions whose node boxes are copied into the tournament's
+// node records. Then everything an update reads about a node (its best point, slot range,
+// children and box) is one 64-byte record. Measured with ReverseMaximin on 10⁶ uniform points
+// in the unit square, 5 alternating runs: median 6.60 s with best, node and box in three arrays,
+// 5.51 s with one record (10⁵ points: 0.31 s and 0.30 s). Above it the boxes are read from the
+// tree.
+const tournamentInlineDims = 2
+
+type tournamentNode struct {
+	best        tournamentBest
+	start, end  int32 // tree slots [start, end)
+	left, right int32 // children, −1 for a leaf
+	// box holds low₀, high₀, low₁, high₁ when d ≤ tournamentInlineDims.
+	box [2 * tournamentInlineDims]float64
 }
 
 // tournamentBest describes a node's best point, copied so that comparisons between siblings
@@ -189,7 +218,7 @@ func (a tournamentBest) before(b tournamentBest) bool {
 }
 
 func (m *tournament) refresh(b int32) {
-	node := m.t.nodes[b]
+	node := &m.nodes[b]
 	best := tournamentBest{slot: -1}
 	if node.left < 0 {
 		for s := node.start; s < node.end; s++ {
@@ -200,26 +229,46 @@ func (m *tournament) refresh(b int32) {
 			}
 		}
 	} else {
-		best = m.best[node.left]
-		if r := m.best[node.right]; r.before(best) {
+		best = m.nodes[node.left].best
+		if r := m.nodes[node.right].best; r.before(best) {
 			best = r
 		}
 	}
-	m.best[b] = best
+	node.best = best
+}
+
+// lowerBound is flatTree.lowerBound for node b: the same arithmetic in the same order, so the
+// same bound.
+func (m *tournament) lowerBound(b int32, node *tournamentNode, x []float64) float64 {
+	d := m.t.d
+	if d > tournamentInlineDims {
+		return m.t.lowerBound(b, x)
+	}
+	var s float64
+	for k, v := range x[:d] {
+		var g float64
+		if low, high := node.box[2*k], node.box[2*k+1]; v < low {
+			g = low - v
+		} else if v > high {
+			g = v - high
+		}
+		s += float64(g * g)
+	}
+	return s
 }
 
 // update lowers the distances below node b to account for the new pick at x (slot picked) and
 // refreshes the nodes it visits, always including those on the path to picked.
 func (m *tournament) update(b int32, x []float64, picked int32) {
-	t := m.t
-	node := t.nodes[b]
+	node := &m.nodes[b]
 	if picked < node.start || picked >= node.end {
-		best := m.best[b]
-		if best.slot < 0 || best.dist <= 0 || t.lowerBound(b, x) > pruneBound(best.dist) {
+		best := node.best
+		if best.slot < 0 || best.dist <= 0 || m.lowerBound(b, node, x) > pruneBound(best.dist) {
 			return
 		}
 	}
 	if node.left < 0 {
+		t := m.t
 		d := t.d
 		for s := node.start; s < node.end; s++ {
 			if m.dist[s] > 0 {
