@@ -52,7 +52,8 @@ type Settings struct {
 	// dense factorisation. 0 means ordering.DefaultLambda (1.5); any value ≤ 1, such as 1,
 	// means no aggregation.
 	Lambda float64
-	// Workers is the number of goroutines computing columns. 0 means GOMAXPROCS.
+	// Workers is the number of goroutines ordering the points, building the pattern and
+	// computing columns. 0 means GOMAXPROCS. The factor is the same for any value.
 	Workers int
 	// MaxMemory, when > 0, is a limit in bytes on the factor's estimated memory (its values,
 	// indices and the workers' workspaces), checked after the pattern is built and before the
@@ -223,7 +224,7 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 	report := set.progress()
 	start := time.Now()
 	report(Progress{PhaseOrdering, 0, 1})
-	ord := ordering.ReverseMaximin(points, d, nil)
+	ord := ordering.Settings{Workers: set.Workers}.ReverseMaximin(points, d, nil)
 	report(Progress{PhaseOrdering, 1, 1})
 	orderTime := time.Since(start)
 	if err := ctx.Err(); err != nil {

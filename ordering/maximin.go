@@ -38,7 +38,9 @@ func ReverseMaximin(points []float64, d int, boundary []float64) Ordering {
 // (Schäfer, Sullivan, Owhadi 2021). With the default flat kd-tree the tree itself is the
 // priority structure (maximinTournament); other searchers use an index-tracked max-heap and one
 // radius query per pick (maximinHeapSearch). Both give the same result. Cost O(N log² N) time
-// for well-spread data, O(N) memory. Sequential: Workers is not used. Inputs are not modified.
+// for well-spread data, O(N) memory. From 2¹⁵ points on, the tournament is split between
+// s.Workers goroutines, one subtree of the kd-tree each (see tournament.parallel), with the
+// same result as on one. Inputs are not modified.
 //
 // Panics if d < 1, len(points)%d != 0, len(boundary)%d != 0, n ≥ 2³¹−1 or a coordinate is
 // not finite.
@@ -96,7 +98,7 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 	}
 
 	if s.search == searchFlat {
-		maximinTournament(newFlatTree(points, d, 0, n), initial, record)
+		maximinTournament(newFlatTree(points, d, 0, n), initial, s.workers(), record)
 	} else {
 		maximinHeapSearch(newSearcher(s.search, points, d, 0, n), points, d, initial, record)
 	}
@@ -140,7 +142,7 @@ func maximinHeapSearch(tree searcher, points []float64, d int, initial []float64
 // only if its new distance beats its old one, which is at most the node's best). Slots are in
 // tree order, so the updates touch memory locally. initial holds the starting distances by
 // input index, −Inf for points already picked.
-func maximinTournament(t *flatTree, initial []float64, record func(int32, float64)) {
+func maximinTournament(t *flatTree, initial []float64, workers int, record func(int32, float64)) {
 	if len(t.nodes) == 0 {
 		return
 	}
@@ -166,6 +168,12 @@ func maximinTournament(t *flatTree, initial []float64, record func(int32, float6
 	// Children have larger ids than their parent (pre-order build): refresh bottom-up.
 	for b := len(m.nodes) - 1; b >= 0; b-- {
 		m.refresh(int32(b))
+	}
+	if workers > 1 && len(t.index) >= parallelMaximinFrom {
+		if roots := maximinRegions(t, workers); roots != nil {
+			m.parallel(roots, record)
+			return
+		}
 	}
 	for m.nodes[0].best.slot >= 0 {
 		top := m.nodes[0].best

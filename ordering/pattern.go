@@ -12,8 +12,8 @@ import (
 
 // Settings configures the ordering and the pattern builders. The zero value means defaults.
 type Settings struct {
-	// Workers is the number of goroutines the pattern builders use; 0 means GOMAXPROCS.
-	// The result is bitwise identical for any value.
+	// Workers is the number of goroutines the ordering and the pattern builders use; 0 means
+	// GOMAXPROCS. The result is bitwise identical for any value.
 	Workers int
 
 	// search selects the neighbour search; the zero value is the flat kd-tree.

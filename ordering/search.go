@@ -248,7 +248,13 @@ func selectNth(coords []float64, index []int32, k, d, dim int) {
 func (t *flatTree) lowerBound(b int32, x []float64) float64 {
 	d := t.d
 	box := t.boxes[2*d*int(b) : 2*d*int(b+1)]
-	low, high := box[:d], box[d:]
+	return boxLowerBound(box[:d], box[d:], x)
+}
+
+// boxLowerBound is flatTree.lowerBound for the box with corners low and high.
+func boxLowerBound(low, high, x []float64) float64 {
+	d := len(low)
+	high = high[:d]
 	var s float64
 	for k, v := range x[:d] {
 		var g float64

@@ -1,0 +1,177 @@
+package ordering
+
+import (
+	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
+)
+
+// parallelMaximinFrom is the number of points from which ReverseMaximin splits the tournament
+// between workers; below it the serial loop is faster. A variable so that tests can run the
+// parallel path on small point sets.
+var parallelMaximinFrom = 1 << 15
+
+// maximinRegion is one worker's part of a parallel maximin tournament: a subtree of the flat
+// kd-tree, whose points only that worker picks and updates.
+type maximinRegion struct {
+	root      int32     // the subtree's root node
+	low, high []float64 // its box
+
+	// The region's current best point, published under a sequence lock (seq odd while it is
+	// being written) so that another worker reads dist, slot and index together.
+	seq   atomic.Uint64
+	dist  atomic.Uint64 // math.Float64bits
+	slot  atomic.Int32
+	index atomic.Int32
+
+	// sent[:sentLen] are the tree slots of this region's picks whose ball reaches another
+	// region, in pick order; each is written before sentLen counts it.
+	sent    []int32
+	sentLen atomic.Int64
+
+	picks []tournamentBest // the region's picks, in pick order
+}
+
+func (r *maximinRegion) publish(b tournamentBest) {
+	r.seq.Add(1)
+	r.dist.Store(math.Float64bits(b.dist))
+	r.slot.Store(b.slot)
+	r.index.Store(b.index)
+	r.seq.Add(1)
+}
+
+func (r *maximinRegion) read() tournamentBest {
+	for {
+		if s := r.seq.Load(); s&1 == 0 {
+			b := tournamentBest{math.Float64frombits(r.dist.Load()), r.slot.Load(), r.index.Load()}
+			if r.seq.Load() == s {
+				return b
+			}
+		}
+		runtime.Gosched()
+	}
+}
+
+// maximinRegions returns the subtrees to give one worker each: the nodes at the deepest level
+// k with 2ᵏ ≤ workers, or nil if the tree is too shallow for two.
+func maximinRegions(t *flatTree, workers int) []int32 {
+	frontier := []int32{0}
+	for 2*len(frontier) <= workers {
+		next := make([]int32, 0, 2*len(frontier))
+		for _, b := range frontier {
+			node := t.nodes[b]
+			if node.left < 0 {
+				return nil
+			}
+			next = append(next, node.left, node.right)
+		}
+		frontier = next
+	}
+	if len(frontier) < 2 {
+		return nil
+	}
+	return frontier
+}
+
+// parallel picks the points on len(roots) workers, one subtree each, and records them in the
+// serial order.
+//
+// The serial tournament picks in the order of (distance descending, index ascending), and a
+// pick's distance depends only on the picks before it that lie within that distance. So a
+// worker may pick its own best point q (distance ℓ) as soon as no point of another region
+// can still change ℓ or be changed by q: for every other region, either none of its points
+// lies within ℓ of q (its box is farther), or its published best comes after q — then every
+// pick of that region that comes before q is already made, and the worker has applied those
+// that reach it. A pick whose ball reaches another region's box is sent there, before its
+// region publishes a best that comes after it. The worker holding the overall best point can
+// always pick, so the workers never all wait. Each region picks in serial order, so merging
+// the regions' picks by the same order gives the serial sequence, with the same distances.
+func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
+	t := m.t
+	d := t.d
+	regions := make([]*maximinRegion, len(roots))
+	for k, b := range roots {
+		node := t.nodes[b]
+		box := t.boxes[2*d*int(b) : 2*d*int(b+1)]
+		regions[k] = &maximinRegion{root: b, low: box[:d], high: box[d:], sent: make([]int32, node.end-node.start)}
+		regions[k].publish(m.nodes[b].best)
+	}
+	var wg sync.WaitGroup
+	for k := range regions {
+		wg.Go(func() { m.runRegion(regions, k) })
+	}
+	wg.Wait()
+
+	// Merge the regions' pick sequences.
+	next := make([]int, len(regions))
+	for {
+		best, from := tournamentBest{slot: -1}, -1
+		for k, r := range regions {
+			if next[k] < len(r.picks) {
+				if c := r.picks[next[k]]; c.before(best) {
+					best, from = c, k
+				}
+			}
+		}
+		if from < 0 {
+			return
+		}
+		next[from]++
+		record(best.index, best.dist)
+	}
+}
+
+// runRegion is worker k's loop of parallel.
+func (m *tournament) runRegion(regions []*maximinRegion, k int) {
+	t := m.t
+	d := t.d
+	r := regions[k]
+	applied := make([]int64, len(regions)) // applied[o]: picks of region o applied here
+	published := m.nodes[r.root].best
+	for {
+		for o, other := range regions {
+			if o == k {
+				continue
+			}
+			for n := other.sentLen.Load(); applied[o] < n; applied[o]++ {
+				s := other.sent[applied[o]]
+				m.update(r.root, t.coords[int(s)*d:int(s+1)*d], -1)
+			}
+		}
+		q := m.nodes[r.root].best
+		if q != published {
+			r.publish(q)
+			published = q
+		}
+		if q.slot < 0 {
+			return
+		}
+		x := t.coords[int(q.slot)*d : int(q.slot+1)*d]
+		free, reaches := true, false
+		for o, other := range regions {
+			if o == k || boxLowerBound(other.low, other.high, x) > pruneBound(q.dist) {
+				continue
+			}
+			reaches = true
+			// Read the best before the count: a region sends a pick before it publishes a
+			// best after it, so a best after q with nothing new sent means nothing is missing.
+			if ob := other.read(); !q.before(ob) || other.sentLen.Load() != applied[o] {
+				free = false
+				break
+			}
+		}
+		if !free {
+			runtime.Gosched()
+			continue
+		}
+		r.picks = append(r.picks, q)
+		m.dist[q.slot] = math.Inf(-1)
+		m.update(r.root, x, q.slot)
+		if reaches {
+			n := r.sentLen.Load()
+			r.sent[n] = q.slot
+			r.sentLen.Store(n + 1)
+		}
+	}
+}
