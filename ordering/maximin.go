@@ -68,7 +68,7 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 	if nb := len(boundary) / d; nb > 0 {
 		var w searchWork
 		var nearest []int32
-		bt := newSearcher(s.search, boundary, d, 0, nb)
+		bt := newSearcher(s.search, boundary, d, 0, nb, s.workers())
 		for i := range int32(n) {
 			nearest = bt.knn(nearest[:0], point(i), 1, 0, &w)
 			initial[i] = distance(point(i), boundary[int(nearest[0])*d:int(nearest[0]+1)*d])
@@ -98,9 +98,9 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 	}
 
 	if s.search == searchFlat {
-		maximinTournament(newFlatTree(points, d, 0, n), initial, s.workers(), record)
+		maximinTournament(newFlatTree(points, d, 0, n, s.workers()), initial, s.workers(), record)
 	} else {
-		maximinHeapSearch(newSearcher(s.search, points, d, 0, n), points, d, initial, record)
+		maximinHeapSearch(newSearcher(s.search, points, d, 0, n, s.workers()), points, d, initial, record)
 	}
 	return ord
 }

@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/bits"
 	"slices"
+	"sync"
 
 	"github.com/kyroy/kdtree"
 	"github.com/kyroy/kdtree/kdrange"
@@ -61,10 +62,11 @@ func (k searchKind) String() string {
 }
 
 // newSearcher indexes the points with indices [lo, hi) of the flat array points.
-func newSearcher(kind searchKind, points []float64, d, lo, hi int) searcher {
+// A flat tree is built on up to workers goroutines.
+func newSearcher(kind searchKind, points []float64, d, lo, hi, workers int) searcher {
 	switch kind {
 	case searchFlat:
-		return newFlatTree(points, d, lo, hi)
+		return newFlatTree(points, d, lo, hi, workers)
 	case searchKyroy:
 		return newKyroyTree(points, d, lo, hi)
 	}
@@ -148,7 +150,14 @@ const flatLeafSize = 32
 
 var _ searcher = (*flatTree)(nil)
 
-func newFlatTree(points []float64, d, lo, hi int) *flatTree {
+// flatParallelBuildFrom is the number of points from which a flat tree's two halves are built
+// on two goroutines (when more than one worker is allowed).
+const flatParallelBuildFrom = 1 << 16
+
+// newFlatTree builds the tree of the points with indices [lo, hi) of the flat array points.
+// With workers > 1 the subtrees of the top levels are built concurrently, up to about workers
+// goroutines; the tree is the same for any worker count.
+func newFlatTree(points []float64, d, lo, hi, workers int) *flatTree {
 	n := hi - lo
 	t := &flatTree{d: d, coords: slices.Clone(points[lo*d : hi*d]), index: make([]int32, n)}
 	for s := range t.index {
@@ -157,16 +166,57 @@ func newFlatTree(points []float64, d, lo, hi int) *flatTree {
 	if n > 0 {
 		t.nodes = make([]flatNode, 0, 2*(n/flatLeafSize+1))
 		t.boxes = make([]float64, 0, 2*d*cap(t.nodes))
-		t.build(0, n)
+		t.buildSplit(0, n, bits.Len(uint(max(workers, 1)-1)))
 	}
 	return t
+}
+
+// buildSplit is build with the right subtrees of the top levels levels built on their own
+// goroutines into separate node arrays, then appended, so the ids are build's pre-order ids.
+// The two halves reorder disjoint slot ranges.
+func (t *flatTree) buildSplit(start, end, levels int) int32 {
+	if levels == 0 || end-start < flatParallelBuildFrom {
+		return t.build(start, end)
+	}
+	id, mid, split := t.addNode(start, end)
+	if !split {
+		return id
+	}
+	right := &flatTree{d: t.d, coords: t.coords, index: t.index}
+	var wg sync.WaitGroup
+	wg.Go(func() { right.buildSplit(mid, end, levels-1) })
+	left := t.buildSplit(start, mid, levels-1)
+	wg.Wait()
+	offset := int32(len(t.nodes))
+	for _, node := range right.nodes {
+		if node.left >= 0 {
+			node.left += offset
+			node.right += offset
+		}
+		t.nodes = append(t.nodes, node)
+	}
+	t.boxes = append(t.boxes, right.boxes...)
+	t.nodes[id].left, t.nodes[id].right = left, offset
+	return id
 }
 
 // build adds the node for tree slots [start, end) and its subtree, returning its id. It
 // reorders coords and index together, so every pass reads memory in sequence.
 func (t *flatTree) build(start, end int) int32 {
+	id, mid, split := t.addNode(start, end)
+	if split {
+		left := t.build(start, mid)
+		right := t.build(mid, end)
+		t.nodes[id].left, t.nodes[id].right = left, right
+	}
+	return id
+}
+
+// addNode appends the node for tree slots [start, end) with its box and largest index, and,
+// unless it is a leaf, reorders the slots around the median mid of its widest coordinate.
+func (t *flatTree) addNode(start, end int) (id int32, mid int, split bool) {
 	d := t.d
-	id := int32(len(t.nodes))
+	id = int32(len(t.nodes))
 	t.nodes = append(t.nodes, flatNode{start: int32(start), end: int32(end), left: -1, right: -1})
 	b := len(t.boxes)
 	t.boxes = slices.Grow(t.boxes, 2*d)[:b+2*d]
@@ -181,7 +231,7 @@ func (t *flatTree) build(start, end int) int32 {
 	}
 	t.nodes[id].maxIndex = slices.Max(t.index[start:end])
 	if end-start <= flatLeafSize {
-		return id
+		return id, 0, false
 	}
 	dim, width := 0, high[0]-low[0]
 	for k := 1; k < d; k++ {
@@ -190,14 +240,11 @@ func (t *flatTree) build(start, end int) int32 {
 		}
 	}
 	if width == 0 { // all points equal: a leaf of duplicates
-		return id
+		return id, 0, false
 	}
-	mid := (start + end) / 2
+	mid = (start + end) / 2
 	selectNth(t.coords[start*d:end*d], t.index[start:end], mid-start, d, dim)
-	left := t.build(start, mid)
-	right := t.build(mid, end)
-	t.nodes[id].left, t.nodes[id].right = left, right
-	return id
+	return id, mid, true
 }
 
 // selectNth reorders the points (coords, d per point, with their index) so that point k has
@@ -511,7 +558,7 @@ func newSuffixTrees(kind searchKind, points []float64, d, n, workers int) *suffi
 	g.SetLimit(workers)
 	for k := range s.trees {
 		g.Go(func() error {
-			s.trees[k] = newSearcher(kind, points, d, max(0, n-1<<k), n)
+			s.trees[k] = newSearcher(kind, points, d, max(0, n-1<<k), n, workers)
 			return nil
 		})
 	}

@@ -130,7 +130,7 @@ func TestSearcherAgainstBruteForce(t *testing.T) {
 			for _, set := range testPointSets(n, d) {
 				// Index a middle range so that indices outside it must never appear.
 				lo, hi := n/10, n
-				tree := newSearcher(kind, set.points, d, lo, hi)
+				tree := newSearcher(kind, set.points, d, lo, hi, 1)
 				rng := rand.New(rand.NewPCG(1, 1))
 				var w searchWork
 				for q := range 40 {
@@ -175,7 +175,7 @@ func TestSearcherAgainstBruteForce(t *testing.T) {
 func TestSearcherEmptyAndDuplicates(t *testing.T) {
 	for _, kind := range searchKinds {
 		var w searchWork
-		empty := newSearcher(kind, nil, 2, 0, 0)
+		empty := newSearcher(kind, nil, 2, 0, 0, 1)
 		if got := empty.knn(nil, []float64{0, 0}, 3, 0, &w); len(got) != 0 {
 			t.Errorf("search=%v: knn on empty tree = %v", kind, got)
 		}
@@ -187,7 +187,7 @@ func TestSearcherEmptyAndDuplicates(t *testing.T) {
 		for i := range same {
 			same[i] = 0.25
 		}
-		tree := newSearcher(kind, same, 2, 0, 50)
+		tree := newSearcher(kind, same, 2, 0, 50, 1)
 		got := tree.knn(nil, []float64{0.25, 0.25}, 3, 10, &w)
 		if want := []int32{10, 11, 12}; !slices.Equal(got, want) {
 			t.Errorf("search=%v: knn among duplicates = %v, want %v (ties by lower index)", kind, got, want)
@@ -202,7 +202,7 @@ func TestSearcherEmptyAndDuplicates(t *testing.T) {
 func TestFlatTreeQueriesDoNotAllocate(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 1))
 	points := uniformPoints(rng, 5000, 2)
-	tree := newFlatTree(points, 2, 0, 5000)
+	tree := newFlatTree(points, 2, 0, 5000, 1)
 	var w searchWork
 	dst := make([]int32, 0, 5000)
 	x := []float64{0.5, 0.5}
@@ -228,6 +228,25 @@ func TestSuffixTreesCovering(t *testing.T) {
 		slices.Sort(all)
 		if all[len(all)-1] != 36 || len(all) != 37-int(all[0]) || int(all[0]) > 37-count || len(all) >= 2*count && len(all) != 37 {
 			t.Errorf("count=%d: covering tree holds positions %d..%d (%d points)", count, all[0], all[len(all)-1], len(all))
+		}
+	}
+}
+
+// A tree built on several goroutines must be the serial tree, node for node: same slots,
+// children, boxes and largest indices, and the points in the same slots.
+func TestFlatTreeParallelBuildIsSerialBuild(t *testing.T) {
+	n := 3 * flatParallelBuildFrom
+	rng := rand.New(rand.NewPCG(5, 5))
+	for _, d := range []int{1, 2, 3} {
+		for _, set := range []pointSet{{"uniform", d, uniformPoints(rng, n, d)}, {"clustered", d, clusteredPoints(rng, n, d)}} {
+			want := newFlatTree(set.points, d, 7, n, 1)
+			for _, workers := range []int{2, 3, 8} {
+				got := newFlatTree(set.points, d, 7, n, workers)
+				if !slices.Equal(got.nodes, want.nodes) || !slices.Equal(got.boxes, want.boxes) ||
+					!slices.Equal(got.coords, want.coords) || !slices.Equal(got.index, want.index) {
+					t.Errorf("d=%d/set=%s/workers=%d: the parallel build differs from the serial one", d, set.name, workers)
+				}
+			}
 		}
 	}
 }
