@@ -97,7 +97,7 @@ func (s Settings) Greedy(points []float64, d int, k kernels.Kernel, m, c int) *P
 			return 0
 		}
 		return n - 1 - j
-	})
+	}, workers)
 	return sel.pattern(order, workers)
 }
 

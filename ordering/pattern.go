@@ -103,7 +103,7 @@ func (s Settings) Radius(points []float64, d int, lengthScale []float64, rho flo
 			return 0
 		}
 		return n - j
-	})
+	}, workers)
 	return buildPattern(n, workers, order, column)
 }
 
@@ -136,7 +136,7 @@ func (s Settings) NearestNeighbors(points []float64, d int, m int) *Pattern {
 		slices.Sort(dst[start:])
 		return dst
 	}
-	order := queryOrder(n, trees, func(j int) int { return n - 1 - j })
+	order := queryOrder(n, trees, func(j int) int { return n - 1 - j }, workers)
 	return buildPattern(n, workers, order, column)
 }
 
@@ -151,23 +151,38 @@ const (
 // queryOrder returns the columns 0…n−1 in the order to compute them: grouped by the suffix tree
 // their query uses and, within a group, in that tree's slot order when it is a flat kd-tree, so
 // that consecutive queries touch the same parts of the tree. The order changes only speed,
-// never the pattern. count(j) is the number of positions column j searches (0: no search).
-func queryOrder(n int, trees *suffixTrees, count func(j int) int) []int32 {
-	order := make([]int32, 0, n)
-	done := make([]bool, n)
+// never the pattern. count(j) is the number of positions column j searches (0: no search); it
+// is called from up to workers goroutines.
+func queryOrder(n int, trees *suffixTrees, count func(j int) int, workers int) []int32 {
+	var lists [][]int32
 	if trees != nil {
+		// Each column matches at most one tree, so the trees' lists are built independently.
+		lists = make([][]int32, len(trees.trees))
+		var g errgroup.Group
+		g.SetLimit(workers)
 		for k, tree := range trees.trees {
 			flat, ok := tree.(*flatTree)
 			if !ok {
 				continue
 			}
-			for _, j := range flat.index {
-				if c := count(int(j)); !done[j] && c > 0 && bits.Len(uint(c-1)) == k {
-					order = append(order, j)
-					done[j] = true
+			g.Go(func() error {
+				for _, j := range flat.index {
+					if c := count(int(j)); c > 0 && bits.Len(uint(c-1)) == k {
+						lists[k] = append(lists[k], j)
+					}
 				}
-			}
+				return nil
+			})
 		}
+		g.Wait()
+	}
+	order := make([]int32, 0, n)
+	done := make([]bool, n)
+	for _, list := range lists {
+		for _, j := range list {
+			done[j] = true
+		}
+		order = append(order, list...)
 	}
 	for j := range n {
 		if !done[j] {
@@ -228,11 +243,27 @@ func assemblePattern[W any](n, workers int, order []int32, chunk, serialBelow in
 		p.ColStart[j+1] = p.ColStart[j] + int64(l)
 	}
 	p.Rows = make([]int32, p.ColStart[n])
-	for c := range chunks {
+	place := func(c int) {
 		for _, j := range order[c*chunk : min(n, (c+1)*chunk)] {
 			copy(p.Rows[p.ColStart[j]:p.ColStart[j+1]], rows[c][colOffset[j]:])
 		}
 		rows[c] = nil
+	}
+	if n < serialBelow || workers == 1 {
+		for c := range chunks {
+			place(c)
+		}
+	} else {
+		// Chunks write disjoint columns of p.Rows.
+		var g errgroup.Group
+		g.SetLimit(workers)
+		for c := range chunks {
+			g.Go(func() error {
+				place(c)
+				return nil
+			})
+		}
+		g.Wait()
 	}
 	return p
 }
