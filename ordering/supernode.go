@@ -48,9 +48,9 @@ const aggregateChunk = 1024
 // the pattern's own rows. lengthScale is Ordering.LengthScale.
 //
 // The membership pass is sequential (it depends on the order of the walk); the row sets are
-// then built in parallel on s.Workers goroutines, each with its own marker array, and the
-// result is the same for any worker count. Cost O(nnz of the members' columns + Σ_J u_J log
-// u_J) time for row sets of u_J rows, O(N) memory per worker. Panics if the sizes disagree.
+// then built in parallel on s.Workers goroutines by merging the members' sorted columns, and
+// the result is the same for any worker count. Cost O(nnz of the members' columns · min(k, log
+// nnz)) time for supernodes of k members, O(N) memory. Panics if the sizes disagree.
 func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *Supernodes {
 	n := p.N()
 	if len(lengthScale) != n {
@@ -74,41 +74,30 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 	chunks := (supernodes + aggregateChunk - 1) / aggregateChunk
 	rows := make([][]int32, chunks)
 	sizes := make([]int64, supernodes)
-	task := func(c int, mark []int32) {
+	task := func(c int) {
 		var buf []int32
+		var heads [][]int32
 		for sn := c * aggregateChunk; sn < min(supernodes, (c+1)*aggregateChunk); sn++ {
 			before := len(buf)
-			stamp := int32(sn + 1) // mark[r] == stamp: r is already in this union
+			heads = heads[:0]
 			for _, i := range out.MembersOf(sn) {
-				for _, r := range p.Col(int(i)) {
-					if mark[r] != stamp {
-						mark[r] = stamp
-						buf = append(buf, r)
-					}
-				}
+				heads = append(heads, p.Col(int(i)))
 			}
-			slices.Sort(buf[before:])
+			buf = unionSorted(buf, heads)
 			sizes[sn] = int64(len(buf) - before)
 		}
 		rows[c] = buf
 	}
 	if workers == 1 || n < patternSerialBelow {
-		mark := make([]int32, n)
 		for c := range chunks {
-			task(c, mark)
+			task(c)
 		}
 	} else {
-		pool := make(chan []int32, workers)
-		for range workers {
-			pool <- make([]int32, n)
-		}
 		var g errgroup.Group
 		g.SetLimit(workers)
 		for c := range chunks {
 			g.Go(func() error {
-				mark := <-pool
-				task(c, mark)
-				pool <- mark
+				task(c)
 				return nil
 			})
 		}
@@ -123,6 +112,43 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 		out.Rows = append(out.Rows, buf...)
 	}
 	return out
+}
+
+// unionMergeMost is the most lists unionSorted merges by scanning their heads; more are
+// concatenated and sorted.
+const unionMergeMost = 8
+
+// unionSorted appends to dst the ascending union of the ascending lists (it consumes the
+// slices in lists, not their elements). It reads only the lists, sequentially: a marker array
+// indexed by row is random access over N entries, which at N = 10⁶ cost more than the merge.
+// Cost O(k·u) for k ≤ unionMergeMost lists with a union of u rows, else O(t log t) for t rows
+// in all.
+func unionSorted(dst []int32, lists [][]int32) []int32 {
+	if len(lists) > unionMergeMost {
+		before := len(dst)
+		for _, l := range lists {
+			dst = append(dst, l...)
+		}
+		slices.Sort(dst[before:])
+		return dst[:before+len(slices.Compact(dst[before:]))]
+	}
+	for {
+		next, found := int32(0), false
+		for _, l := range lists {
+			if len(l) > 0 && (!found || l[0] < next) {
+				next, found = l[0], true
+			}
+		}
+		if !found {
+			return dst
+		}
+		dst = append(dst, next)
+		for k, l := range lists {
+			if len(l) > 0 && l[0] == next {
+				lists[k] = l[1:]
+			}
+		}
+	}
 }
 
 // aggregateMembers is the membership pass of Aggregate: walking positions from the finest,

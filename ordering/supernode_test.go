@@ -3,6 +3,7 @@ package ordering
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"slices"
 	"testing"
 )
@@ -122,5 +123,37 @@ func TestAggregateSameForAnyWorkerCount(t *testing.T) {
 	}
 	if ref.Len() >= pat.N() {
 		t.Fatalf("%d supernodes for %d columns: nothing aggregated", ref.Len(), pat.N())
+	}
+}
+
+// unionSorted against the plain definition (every row of every list, once, ascending) for
+// 0 to 20 lists, so both the head-scanning merge (≤ unionMergeMost lists) and the sort are
+// covered; the lists overlap heavily, as members' columns do.
+func TestUnionSorted(t *testing.T) {
+	rng := rand.New(rand.NewPCG(6, 6))
+	for k := range 21 {
+		for range 20 {
+			lists := make([][]int32, k)
+			seen := map[int32]bool{}
+			for i := range lists {
+				for r := range int32(60) {
+					if rng.IntN(3) == 0 {
+						lists[i] = append(lists[i], r)
+						seen[r] = true
+					}
+				}
+			}
+			var want []int32
+			for r := range int32(60) {
+				if seen[r] {
+					want = append(want, r)
+				}
+			}
+			prefix := []int32{-5, -4}
+			got := unionSorted(slices.Clone(prefix), slices.Clone(lists))
+			if !slices.Equal(got[:2], prefix) || !slices.Equal(got[2:], want) {
+				t.Fatalf("%d lists: got %v, want %v after %v", k, got, want, prefix)
+			}
+		}
 	}
 }
