@@ -51,7 +51,9 @@ func TestParallelReverseMaximinAgainstBruteForce(t *testing.T) {
 }
 
 // On larger sets, where the regions run long stretches independently, the parallel result
-// must equal the serial tournament's (itself checked against brute force above).
+// must equal the serial tournament's (itself checked against brute force above): uniform and
+// clustered points, a lattice (exact ties across the regions' boundary), and copies of a tenth
+// of the points (zero distances).
 func TestParallelReverseMaximinMatchesSerial(t *testing.T) {
 	n := 100000
 	if testing.Short() {
@@ -59,10 +61,24 @@ func TestParallelReverseMaximinMatchesSerial(t *testing.T) {
 	}
 	rng := rand.New(rand.NewPCG(4, 4))
 	for _, d := range []int{2, 3} {
-		for _, set := range []pointSet{{"uniform", d, uniformPoints(rng, n, d)}, {"clustered", d, clusteredPoints(rng, n, d)}} {
+		copies := make([]float64, 0, n*d)
+		base := uniformPoints(rng, n/10, d)
+		for range n {
+			i := rng.IntN(n / 10)
+			copies = append(copies, base[i*d:(i+1)*d]...)
+		}
+		sets := []pointSet{
+			{"uniform", d, uniformPoints(rng, n, d)},
+			{"clustered", d, clusteredPoints(rng, n, d)},
+			{"lattice", d, latticePoints(n, d)},
+			{"copies", d, copies},
+		}
+		for _, set := range sets {
 			want := Settings{Workers: 1}.ReverseMaximin(set.points, d, nil)
 			for _, workers := range []int{2, 4} {
-				got := Settings{Workers: workers}.ReverseMaximin(set.points, d, nil)
+				var got Ordering
+				// Forced, so that the short run (n below the threshold) takes the parallel path.
+				withParallelMaximinFrom(0, func() { got = Settings{Workers: workers}.ReverseMaximin(set.points, d, nil) })
 				if !slices.Equal(got.Order, want.Order) || !slices.Equal(got.LengthScale, want.LengthScale) {
 					t.Errorf("d=%d/set=%s/workers=%d: parallel ordering differs from serial", d, set.name, workers)
 				}
