@@ -38,7 +38,7 @@ func ReverseMaximin(points []float64, d int, boundary []float64) Ordering {
 // (Schäfer, Sullivan, Owhadi 2021). With the default flat kd-tree the tree itself is the
 // priority structure (maximinTournament); other searchers use an index-tracked max-heap and one
 // radius query per pick (maximinHeapSearch). Both give the same result. Cost O(N log² N) time
-// for well-spread data, O(N) memory. From 2¹⁵ points on, the tournament is split between
+// for well-spread data, O(N) memory. From 2¹² points on, the tournament is split between
 // s.Workers goroutines, one subtree of the kd-tree each (see tournament.parallel), with the
 // same result as on one. Inputs are not modified.
 //

@@ -8,9 +8,10 @@ import (
 )
 
 // parallelMaximinFrom is the number of points from which ReverseMaximin splits the tournament
-// between workers; below it the serial loop is faster. A variable so that tests can run the
-// parallel path on small point sets.
-var parallelMaximinFrom = 1 << 15
+// between workers. Measured on uniform points in the unit square, best of 7, 1 against 2
+// workers: 2000 points 2.96 and 2.57 ms, 4000 points 6.3 and 4.5 ms, 64,000 points 153 and
+// 111 ms. A variable so that tests can run the parallel path on small point sets.
+var parallelMaximinFrom = 1 << 12
 
 // maximinRegion is one worker's part of a parallel maximin tournament: a subtree of the flat
 // kd-tree, whose points only that worker picks and updates.

@@ -77,7 +77,7 @@ func TestParallelReverseMaximinMatchesSerial(t *testing.T) {
 			want := Settings{Workers: 1}.ReverseMaximin(set.points, d, nil)
 			for _, workers := range []int{2, 4} {
 				var got Ordering
-				// Forced, so that the short run (n below the threshold) takes the parallel path.
+				// Forced, so that the test does not depend on the threshold.
 				withParallelMaximinFrom(0, func() { got = Settings{Workers: workers}.ReverseMaximin(set.points, d, nil) })
 				if !slices.Equal(got.Order, want.Order) || !slices.Equal(got.LengthScale, want.LengthScale) {
 					t.Errorf("d=%d/set=%s/workers=%d: parallel ordering differs from serial", d, set.name, workers)
