@@ -158,23 +158,15 @@ func queryOrder(n int, trees *suffixTrees, count func(j int) int, workers int) [
 	if trees != nil {
 		// Each column matches at most one tree, so the trees' lists are built independently.
 		lists = make([][]int32, len(trees.trees))
-		var g errgroup.Group
-		g.SetLimit(workers)
-		for k, tree := range trees.trees {
-			flat, ok := tree.(*flatTree)
-			if !ok {
-				continue
-			}
-			g.Go(func() error {
+		forEachChunk(len(trees.trees), workers, func(k int) {
+			if flat, ok := trees.trees[k].(*flatTree); ok {
 				for _, j := range flat.index {
 					if c := count(int(j)); c > 0 && bits.Len(uint(c-1)) == k {
 						lists[k] = append(lists[k], j)
 					}
 				}
-				return nil
-			})
-		}
-		g.Wait()
+			}
+		})
 	}
 	order := make([]int32, 0, n)
 	done := make([]bool, n)
@@ -249,21 +241,29 @@ func assemblePattern[W any](n, workers int, order []int32, chunk, serialBelow in
 		}
 		rows[c] = nil
 	}
-	if n < serialBelow || workers == 1 {
-		for c := range chunks {
-			place(c)
-		}
-	} else {
-		// Chunks write disjoint columns of p.Rows.
-		var g errgroup.Group
-		g.SetLimit(workers)
-		for c := range chunks {
-			g.Go(func() error {
-				place(c)
-				return nil
-			})
-		}
-		g.Wait()
+	if n < serialBelow {
+		workers = 1
 	}
+	forEachChunk(chunks, workers, place) // chunks write disjoint columns of p.Rows
 	return p
+}
+
+// forEachChunk calls f(c) for c = 0, …, chunks−1, on up to workers goroutines (in order on
+// the caller's when workers ≤ 1). The calls must not depend on each other.
+func forEachChunk(chunks, workers int, f func(c int)) {
+	if workers <= 1 {
+		for c := range chunks {
+			f(c)
+		}
+		return
+	}
+	var g errgroup.Group
+	g.SetLimit(workers)
+	for c := range chunks {
+		g.Go(func() error {
+			f(c)
+			return nil
+		})
+	}
+	g.Wait()
 }

@@ -3,8 +3,6 @@ package ordering
 import (
 	"fmt"
 	"slices"
-
-	"golang.org/x/sync/errgroup"
 )
 
 // DefaultLambda is the default aggregation parameter λ of Aggregate.
@@ -88,21 +86,10 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 		}
 		rows[c] = buf
 	}
-	if workers == 1 || n < patternSerialBelow {
-		for c := range chunks {
-			task(c)
-		}
-	} else {
-		var g errgroup.Group
-		g.SetLimit(workers)
-		for c := range chunks {
-			g.Go(func() error {
-				task(c)
-				return nil
-			})
-		}
-		g.Wait()
+	if n < patternSerialBelow {
+		workers = 1
 	}
+	forEachChunk(chunks, workers, task)
 	out.RowStart = make([]int64, supernodes+1)
 	for sn, size := range sizes {
 		out.RowStart[sn+1] = out.RowStart[sn] + size
