@@ -179,7 +179,7 @@ func maximinTournament(t *flatTree, initial []float64, workers int, record func(
 		top := m.nodes[0].best
 		record(top.index, top.dist)
 		m.dist[top.slot] = math.Inf(-1)
-		m.update(0, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot)
+		m.update(0, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
 	}
 }
 
@@ -265,13 +265,18 @@ func (m *tournament) lowerBound(b int32, node *tournamentNode, x []float64) floa
 	return s
 }
 
-// update lowers the distances below node b to account for the new pick at x (slot picked) and
-// refreshes the nodes it visits, always including those on the path to picked.
-func (m *tournament) update(b int32, x []float64, picked int32) {
+// update lowers the distances below node b to account for the new pick at x (slot picked)
+// and refreshes the nodes it visits, always including those on the path to picked. Only
+// distances to x below within change: a pick at distance ℓ changes no point whose distance to
+// it is ℓ or more, since every point picked after it has distance at most ℓ. The serial
+// tournament never has an unpicked point beyond ℓ, so there within only prunes what the node
+// bests prune already; the parallel one applies another region's pick to points that region
+// did not wait for, and some of them come before the pick.
+func (m *tournament) update(b int32, x []float64, picked int32, within float64) {
 	node := &m.nodes[b]
 	if picked < node.start || picked >= node.end {
 		best := node.best
-		if best.slot < 0 || best.dist <= 0 || m.lowerBound(b, node, x) > pruneBound(best.dist) {
+		if best.slot < 0 || best.dist <= 0 || m.lowerBound(b, node, x) > pruneBound(min(best.dist, within)) {
 			return
 		}
 	}
@@ -280,14 +285,14 @@ func (m *tournament) update(b int32, x []float64, picked int32) {
 		d := t.d
 		for s := node.start; s < node.end; s++ {
 			if m.dist[s] > 0 {
-				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < m.dist[s] {
+				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < m.dist[s] && dist < within {
 					m.dist[s] = dist
 				}
 			}
 		}
 	} else {
-		m.update(node.left, x, picked)
-		m.update(node.right, x, picked)
+		m.update(node.left, x, picked, within)
+		m.update(node.right, x, picked, within)
 	}
 	m.refresh(b)
 }

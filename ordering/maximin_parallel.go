@@ -13,6 +13,26 @@ import (
 // 111 ms. A variable so that tests can run the parallel path on small point sets.
 var parallelMaximinFrom = 1 << 12
 
+// runMaximinRegions runs the regions' workers until every region is picked out. A variable so
+// that tests can run the same steps under schedules of their own.
+var runMaximinRegions = func(m *tournament, regions []*maximinRegion) {
+	var wg sync.WaitGroup
+	for k := range regions {
+		wg.Go(func() {
+			for {
+				left, picked := m.step(regions, k)
+				if !left {
+					return
+				}
+				if !picked {
+					runtime.Gosched()
+				}
+			}
+		})
+	}
+	wg.Wait()
+}
+
 // maximinRegion is one worker's part of a parallel maximin tournament: a subtree of the flat
 // kd-tree, whose points only that worker picks and updates.
 type maximinRegion struct {
@@ -26,12 +46,17 @@ type maximinRegion struct {
 	slot  atomic.Int32
 	index atomic.Int32
 
-	// sent[:sentLen] are the tree slots of this region's picks whose ball reaches another
-	// region, in pick order; each is written before sentLen counts it.
-	sent    []int32
+	// sent[:sentLen] are this region's picks whose ball reaches another region, in pick
+	// order; each is written before sentLen counts it.
+	sent    []tournamentBest
 	sentLen atomic.Int64
 
 	picks []tournamentBest // the region's picks, in pick order
+
+	// The worker's own state: applied[o] is the number of region o's sent picks applied here,
+	// published the best last published.
+	applied   []int64
+	published tournamentBest
 }
 
 func (r *maximinRegion) publish(b tournamentBest) {
@@ -85,7 +110,10 @@ func maximinRegions(t *flatTree, workers int) []int32 {
 // lies within ℓ of q (its box is farther), or its published best comes after q — then every
 // pick of that region that comes before q is already made, and the worker has applied those
 // that reach it. A pick whose ball reaches another region's box is sent there, before its
-// region publishes a best that comes after it. The worker holding the overall best point can
+// region publishes a best that comes after it. A region that was not waited for may still
+// hold points that come before a pick it receives, so a received pick at distance ℓ lowers
+// only distances to it below ℓ; the points it would lower in the serial tournament are
+// exactly those (every point picked after it has distance at most ℓ). The worker holding the overall best point can
 // always pick, so the workers never all wait. Each region picks in serial order, so merging
 // the regions' picks by the same order gives the serial sequence, with the same distances.
 func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
@@ -95,14 +123,15 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 	for k, b := range roots {
 		node := t.nodes[b]
 		box := t.boxes[2*d*int(b) : 2*d*int(b+1)]
-		regions[k] = &maximinRegion{root: b, low: box[:d], high: box[d:], sent: make([]int32, node.end-node.start)}
+		regions[k] = &maximinRegion{
+			root: b, low: box[:d], high: box[d:],
+			sent:      make([]tournamentBest, node.end-node.start),
+			applied:   make([]int64, len(roots)),
+			published: m.nodes[b].best,
+		}
 		regions[k].publish(m.nodes[b].best)
 	}
-	var wg sync.WaitGroup
-	for k := range regions {
-		wg.Go(func() { m.runRegion(regions, k) })
-	}
-	wg.Wait()
+	runMaximinRegions(m, regions)
 
 	// Merge the regions' pick sequences.
 	next := make([]int, len(regions))
@@ -123,56 +152,50 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 	}
 }
 
-// runRegion is worker k's loop of parallel.
-func (m *tournament) runRegion(regions []*maximinRegion, k int) {
+// step is one turn of region k's worker: it applies the picks the other regions have sent,
+// publishes its best point, and picks it if no other region can still change it. It reports
+// whether the region had a point left, and whether it picked one.
+func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
 	t := m.t
 	d := t.d
 	r := regions[k]
-	applied := make([]int64, len(regions)) // applied[o]: picks of region o applied here
-	published := m.nodes[r.root].best
-	for {
-		for o, other := range regions {
-			if o == k {
-				continue
-			}
-			for n := other.sentLen.Load(); applied[o] < n; applied[o]++ {
-				s := other.sent[applied[o]]
-				m.update(r.root, t.coords[int(s)*d:int(s+1)*d], -1)
-			}
-		}
-		q := m.nodes[r.root].best
-		if q != published {
-			r.publish(q)
-			published = q
-		}
-		if q.slot < 0 {
-			return
-		}
-		x := t.coords[int(q.slot)*d : int(q.slot+1)*d]
-		free, reaches := true, false
-		for o, other := range regions {
-			if o == k || boxLowerBound(other.low, other.high, x) > pruneBound(q.dist) {
-				continue
-			}
-			reaches = true
-			// Read the best before the count: a region sends a pick before it publishes a
-			// best after it, so a best after q with nothing new sent means nothing is missing.
-			if ob := other.read(); !q.before(ob) || other.sentLen.Load() != applied[o] {
-				free = false
-				break
-			}
-		}
-		if !free {
-			runtime.Gosched()
+	for o, other := range regions {
+		if o == k {
 			continue
 		}
-		r.picks = append(r.picks, q)
-		m.dist[q.slot] = math.Inf(-1)
-		m.update(r.root, x, q.slot)
-		if reaches {
-			n := r.sentLen.Load()
-			r.sent[n] = q.slot
-			r.sentLen.Store(n + 1)
+		for n := other.sentLen.Load(); r.applied[o] < n; r.applied[o]++ {
+			p := other.sent[r.applied[o]]
+			m.update(r.root, t.coords[int(p.slot)*d:int(p.slot+1)*d], -1, p.dist)
 		}
 	}
+	q := m.nodes[r.root].best
+	if q != r.published {
+		r.publish(q)
+		r.published = q
+	}
+	if q.slot < 0 {
+		return false, false
+	}
+	x := t.coords[int(q.slot)*d : int(q.slot+1)*d]
+	reaches := false
+	for o, other := range regions {
+		if o == k || boxLowerBound(other.low, other.high, x) > pruneBound(q.dist) {
+			continue
+		}
+		reaches = true
+		// Read the best before the count: a region sends a pick before it publishes a best
+		// after it, so a best after q with nothing new sent means nothing is missing.
+		if ob := other.read(); !q.before(ob) || other.sentLen.Load() != r.applied[o] {
+			return true, false
+		}
+	}
+	r.picks = append(r.picks, q)
+	m.dist[q.slot] = math.Inf(-1)
+	m.update(r.root, x, q.slot, q.dist)
+	if reaches {
+		n := r.sentLen.Load()
+		r.sent[n] = q
+		r.sentLen.Store(n + 1)
+	}
+	return true, true
 }
