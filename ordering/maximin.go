@@ -157,17 +157,20 @@ func maximinTournament(t *flatTree, initial []float64, workers int, record func(
 	}
 	for b, node := range t.nodes {
 		r := &m.nodes[b]
-		r.start, r.end, r.left, r.right = node.start, node.end, node.left, node.right
+		r.right = node.right
+		if node.left >= 0 && node.left != int32(b)+1 {
+			panic("ordering: internal error: kd-tree not in pre-order")
+		}
 		if d <= tournamentInlineDims {
 			box := t.boxes[2*d*b : 2*d*(b+1)]
 			for k := range d {
-				r.box[2*k], r.box[2*k+1] = box[k], box[d+k]
+				r.box[2*k], r.box[2*k+1] = float32Below(box[k]), float32Above(box[d+k])
 			}
 		}
 	}
 	// Children have larger ids than their parent (pre-order build): refresh bottom-up.
 	for b := len(m.nodes) - 1; b >= 0; b-- {
-		m.refresh(int32(b))
+		m.refresh(int32(b), t.nodes[b].start, t.nodes[b].end)
 	}
 	if workers > 1 && len(t.index) >= parallelMaximinFrom {
 		if roots := maximinRegions(t, workers); roots != nil {
@@ -175,11 +178,11 @@ func maximinTournament(t *flatTree, initial []float64, workers int, record func(
 			return
 		}
 	}
-	for m.nodes[0].best.slot >= 0 {
-		top := m.nodes[0].best
+	n := int32(len(t.index))
+	for top := m.best(0); top.slot >= 0; top = m.best(0) {
 		record(top.index, top.dist)
 		m.dist[top.slot] = math.Inf(-1)
-		m.update(0, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
+		m.update(0, 0, n, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
 	}
 }
 
@@ -190,27 +193,58 @@ type tournament struct {
 }
 
 // tournamentInlineDims is the most dimensions whose node boxes are copied into the tournament's
-// node records. Then everything an update reads about a node (its best point, slot range,
-// children and box) is one 64-byte record. Measured with ReverseMaximin on 10⁶ uniform points
-// in the unit square, 5 alternating runs: median 6.60 s with best, node and box in three arrays,
-// 5.51 s with one record (10⁵ points: 0.31 s and 0.30 s). Above it the boxes are read from the
-// tree.
+// node records. Then everything an update reads about a node is one 32-byte record, two to a
+// cache line, and a node's left child (the next record, pre-order) often shares its line.
+// Measured with ReverseMaximin on 10⁶ uniform points in the unit square, 5 alternating runs:
+// median 6.60 s with best, node and box in three arrays, 5.51 s with one 64-byte record (10⁵
+// points: 0.31 s and 0.30 s); on another day, 6 alternating runs, 5.19 s with the 64-byte
+// record and 4.66 s with this one (2 workers: 2.63 s and 2.30 s). Above it the boxes are
+// read from the tree.
 const tournamentInlineDims = 2
 
+// tournamentNode is a node's part of the tournament. Its slot range is not stored: the root
+// holds all slots and a node [start, end) splits at (start+end)/2 (flatTree.addNode), so the
+// update passes ranges down; the left child is the next node.
 type tournamentNode struct {
-	best        tournamentBest
-	start, end  int32 // tree slots [start, end)
-	left, right int32 // children, −1 for a leaf
-	// box holds low₀, high₀, low₁, high₁ when d ≤ tournamentInlineDims.
-	box [2 * tournamentInlineDims]float64
+	dist  float64 // the best unpicked point below the node: its distance
+	slot  int32   // and tree slot, −1 if every point below is picked
+	right int32   // the right child, −1 for a leaf
+	// box holds low₀, high₀, low₁, high₁ when d ≤ tournamentInlineDims, rounded outwards to
+	// float32, so its lower bound never exceeds the tree box's.
+	box [2 * tournamentInlineDims]float32
 }
 
-// tournamentBest describes a node's best point, copied so that comparisons between siblings
-// read only node data.
+// float32Below returns the largest float32 ≤ v, float32Above the smallest ≥ v.
+func float32Below(v float64) float32 {
+	f := float32(v)
+	if float64(f) > v {
+		f = math.Nextafter32(f, float32(math.Inf(-1)))
+	}
+	return f
+}
+
+func float32Above(v float64) float32 {
+	f := float32(v)
+	if float64(f) < v {
+		f = math.Nextafter32(f, float32(math.Inf(1)))
+	}
+	return f
+}
+
+// tournamentBest describes a node's best point.
 type tournamentBest struct {
 	dist  float64
 	slot  int32 // −1 if every point below the node is picked
 	index int32 // input index
+}
+
+// best returns node b's best point.
+func (m *tournament) best(b int32) tournamentBest {
+	node := &m.nodes[b]
+	if node.slot < 0 {
+		return tournamentBest{slot: -1}
+	}
+	return tournamentBest{node.dist, node.slot, m.t.index[node.slot]}
 }
 
 // before reports whether a is to be picked before b: larger distance, then lower index; a
@@ -225,28 +259,31 @@ func (a tournamentBest) before(b tournamentBest) bool {
 	return a.dist > b.dist || (a.dist == b.dist && a.index < b.index)
 }
 
-func (m *tournament) refresh(b int32) {
+// refresh recomputes the best point of node b, which holds slots [start, end), from its
+// children or, for a leaf, its points. Indices are read only to break ties in distance.
+func (m *tournament) refresh(b, start, end int32) {
 	node := &m.nodes[b]
-	best := tournamentBest{slot: -1}
-	if node.left < 0 {
-		for s := node.start; s < node.end; s++ {
-			if dist := m.dist[s]; !math.IsInf(dist, -1) {
-				if c := (tournamentBest{dist, s, m.t.index[s]}); c.before(best) {
-					best = c
-				}
+	index := m.t.index
+	dist, slot := math.Inf(-1), int32(-1)
+	if node.right < 0 {
+		for s := start; s < end; s++ {
+			if v := m.dist[s]; v > dist || (v == dist && slot >= 0 && index[s] < index[slot]) {
+				dist, slot = v, s
 			}
 		}
 	} else {
-		best = m.nodes[node.left].best
-		if r := m.nodes[node.right].best; r.before(best) {
-			best = r
+		left, right := &m.nodes[b+1], &m.nodes[node.right]
+		dist, slot = left.dist, left.slot
+		if right.slot >= 0 && (slot < 0 || right.dist > dist || (right.dist == dist && index[right.slot] < index[slot])) {
+			dist, slot = right.dist, right.slot
 		}
 	}
-	node.best = best
+	node.dist, node.slot = dist, slot
 }
 
-// lowerBound is flatTree.lowerBound for node b: the same arithmetic in the same order, so the
-// same bound.
+// lowerBound is a lower bound on the squared distance from x to the points below node b: for
+// d ≤ tournamentInlineDims, flatTree.lowerBound's arithmetic on the record's outward-rounded
+// box, which holds the tree box, so it never exceeds the tree's bound.
 func (m *tournament) lowerBound(b int32, node *tournamentNode, x []float64) float64 {
 	d := m.t.d
 	if d > tournamentInlineDims {
@@ -255,7 +292,7 @@ func (m *tournament) lowerBound(b int32, node *tournamentNode, x []float64) floa
 	var s float64
 	for k, v := range x[:d] {
 		var g float64
-		if low, high := node.box[2*k], node.box[2*k+1]; v < low {
+		if low, high := float64(node.box[2*k]), float64(node.box[2*k+1]); v < low {
 			g = low - v
 		} else if v > high {
 			g = v - high
@@ -265,25 +302,24 @@ func (m *tournament) lowerBound(b int32, node *tournamentNode, x []float64) floa
 	return s
 }
 
-// update lowers the distances below node b to account for the new pick at x (slot picked)
-// and refreshes the nodes it visits, always including those on the path to picked. Only
-// distances to x below within change: a pick at distance ℓ changes no point whose distance to
-// it is ℓ or more, since every point picked after it has distance at most ℓ. The serial
-// tournament never has an unpicked point beyond ℓ, so there within only prunes what the node
-// bests prune already; the parallel one applies another region's pick to points that region
-// did not wait for, and some of them come before the pick.
-func (m *tournament) update(b int32, x []float64, picked int32, within float64) {
+// update lowers the distances below node b (slots [start, end)) to account for the new pick
+// at x (slot picked) and refreshes the nodes it visits, always including those on the path to
+// picked. Only distances to x below within change: a pick at distance ℓ changes no point
+// whose distance to it is ℓ or more, since every point picked after it has distance at most
+// ℓ. The serial tournament never has an unpicked point beyond ℓ, so there within only prunes
+// what the node bests prune already; the parallel one applies another region's pick to points
+// that region did not wait for, and some of them come before the pick.
+func (m *tournament) update(b, start, end int32, x []float64, picked int32, within float64) {
 	node := &m.nodes[b]
-	if picked < node.start || picked >= node.end {
-		best := node.best
-		if best.slot < 0 || best.dist <= 0 || m.lowerBound(b, node, x) > pruneBound(min(best.dist, within)) {
+	if picked < start || picked >= end {
+		if node.slot < 0 || node.dist <= 0 || m.lowerBound(b, node, x) > pruneBound(min(node.dist, within)) {
 			return
 		}
 	}
-	if node.left < 0 {
+	if node.right < 0 {
 		t := m.t
 		d := t.d
-		for s := node.start; s < node.end; s++ {
+		for s := start; s < end; s++ {
 			if m.dist[s] > 0 {
 				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < m.dist[s] && dist < within {
 					m.dist[s] = dist
@@ -291,10 +327,11 @@ func (m *tournament) update(b int32, x []float64, picked int32, within float64) 
 			}
 		}
 	} else {
-		m.update(node.left, x, picked, within)
-		m.update(node.right, x, picked, within)
+		mid := (start + end) / 2
+		m.update(b+1, start, mid, x, picked, within)
+		m.update(node.right, mid, end, x, picked, within)
 	}
-	m.refresh(b)
+	m.refresh(b, start, end)
 }
 
 // maximinHeap is a binary max-heap of unpicked points ordered by (distance descending, index

@@ -36,8 +36,9 @@ var runMaximinRegions = func(m *tournament, regions []*maximinRegion) {
 // maximinRegion is one worker's part of a parallel maximin tournament: a subtree of the flat
 // kd-tree, whose points only that worker picks and updates.
 type maximinRegion struct {
-	root      int32     // the subtree's root node
-	low, high []float64 // its box
+	root       int32     // the subtree's root node
+	start, end int32     // its slots
+	low, high  []float64 // its box
 
 	// The region's current best point, published under a sequence lock (seq odd while it is
 	// being written) so that another worker reads dist, slot and index together.
@@ -124,12 +125,12 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 		node := t.nodes[b]
 		box := t.boxes[2*d*int(b) : 2*d*int(b+1)]
 		regions[k] = &maximinRegion{
-			root: b, low: box[:d], high: box[d:],
+			root: b, start: node.start, end: node.end, low: box[:d], high: box[d:],
 			sent:      make([]tournamentBest, node.end-node.start),
 			applied:   make([]int64, len(roots)),
-			published: m.nodes[b].best,
+			published: m.best(b),
 		}
-		regions[k].publish(m.nodes[b].best)
+		regions[k].publish(m.best(b))
 	}
 	runMaximinRegions(m, regions)
 
@@ -165,10 +166,10 @@ func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
 		}
 		for n := other.sentLen.Load(); r.applied[o] < n; r.applied[o]++ {
 			p := other.sent[r.applied[o]]
-			m.update(r.root, t.coords[int(p.slot)*d:int(p.slot+1)*d], -1, p.dist)
+			m.update(r.root, r.start, r.end, t.coords[int(p.slot)*d:int(p.slot+1)*d], -1, p.dist)
 		}
 	}
-	q := m.nodes[r.root].best
+	q := m.best(r.root)
 	if q != r.published {
 		r.publish(q)
 		r.published = q
@@ -191,7 +192,7 @@ func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
 	}
 	r.picks = append(r.picks, q)
 	m.dist[q.slot] = math.Inf(-1)
-	m.update(r.root, x, q.slot, q.dist)
+	m.update(r.root, r.start, r.end, x, q.slot, q.dist)
 	if reaches {
 		n := r.sentLen.Load()
 		r.sent[n] = q

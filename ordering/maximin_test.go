@@ -301,3 +301,23 @@ func BenchmarkReverseMaximin(b *testing.B) {
 		}
 	})
 }
+
+// The tournament's float32 boxes must hold the float64 boxes: float32Below(v) is the largest
+// float32 ≤ v and float32Above(v) the smallest ≥ v (checked against math.Nextafter32, the
+// IEEE 754 neighbour), for exact, rounded, negative, tiny and huge values.
+func TestFloat32Rounding(t *testing.T) {
+	rng := rand.New(rand.NewPCG(6, 6))
+	values := []float64{0, 1, -1, 0.1, -0.1, 1e-40, -1e-40, 1e30, -1e30, math.MaxFloat32, 1.5, math.Pi}
+	for range 1000 {
+		values = append(values, rng.NormFloat64()*math.Pow(10, float64(rng.IntN(20)-10)))
+	}
+	for _, v := range values {
+		lo, hi := float32Below(v), float32Above(v)
+		if float64(lo) > v || float64(math.Nextafter32(lo, float32(math.Inf(1)))) <= v && float64(lo) != v {
+			t.Errorf("float32Below(%v) = %v", v, lo)
+		}
+		if float64(hi) < v || float64(math.Nextafter32(hi, float32(math.Inf(-1)))) >= v && float64(hi) != v {
+			t.Errorf("float32Above(%v) = %v", v, hi)
+		}
+	}
+}
