@@ -114,9 +114,10 @@ func maximinRegions(t *flatTree, workers int) []int32 {
 // region publishes a best that comes after it. A region that was not waited for may still
 // hold points that come before a pick it receives, so a received pick at distance ℓ lowers
 // only distances to it below ℓ; the points it would lower in the serial tournament are
-// exactly those (every point picked after it has distance at most ℓ). The worker holding the overall best point can
-// always pick, so the workers never all wait. Each region picks in serial order, so merging
-// the regions' picks by the same order gives the serial sequence, with the same distances.
+// exactly those (every point picked after it has distance at most ℓ). The worker holding the
+// overall best point can always pick, so the workers never all wait. Each region picks in
+// serial order, so merging the regions' picks by the same order gives the serial sequence,
+// with the same distances.
 func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 	t := m.t
 	d := t.d
