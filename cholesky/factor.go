@@ -225,14 +225,11 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 	start := time.Now()
 	report(Progress{PhaseOrdering, 0, 1})
 	ord := ordering.Settings{Workers: set.Workers}.ReverseMaximin(points, d, nil)
+	permuted := permutePoints(points, d, ord.Order, set.Workers)
 	report(Progress{PhaseOrdering, 1, 1})
 	orderTime := time.Since(start)
 	if err := ctx.Err(); err != nil {
 		return nil, err
-	}
-	permuted := make([]float64, len(points))
-	for p, i := range ord.Order {
-		copy(permuted[p*d:(p+1)*d], points[i*d:(i+1)*d])
 	}
 	start = time.Now()
 	report(Progress{PhasePattern, 0, 1})
@@ -282,13 +279,31 @@ func NewFromPattern(ctx context.Context, points []float64, d int, k kernels.Kern
 	if len(ord.Order) != n || pat.N() != n {
 		panic("cholesky: ordering or pattern size does not match the points")
 	}
-	permuted := make([]float64, len(points))
-	for p, i := range ord.Order {
-		copy(permuted[p*d:(p+1)*d], points[i*d:(i+1)*d])
-	}
 	set := s.withDefaults()
+	permuted := permutePoints(points, d, ord.Order, set.Workers)
 	set.Rho, set.Neighbors, set.Greedy, set.Candidates = 0, 0, false, 0
 	return newFromPattern(ctx, permuted, d, k, ord, pat, set)
+}
+
+// permutePoints returns the points in the ordering's positions: position p holds point
+// order[p]. Chunks of positions are copied on up to workers goroutines (the reads are random,
+// so at 10⁶ points this is a cache-bound pass worth splitting).
+func permutePoints(points []float64, d int, order []int, workers int) []float64 {
+	permuted := make([]float64, len(points))
+	const chunk = 1 << 15
+	var g errgroup.Group
+	g.SetLimit(max(1, workers))
+	for lo := 0; lo < len(order); lo += chunk {
+		g.Go(func() error {
+			for p := lo; p < min(len(order), lo+chunk); p++ {
+				i := order[p]
+				copy(permuted[p*d:(p+1)*d], points[i*d:(i+1)*d])
+			}
+			return nil
+		})
+	}
+	g.Wait()
+	return permuted
 }
 
 func newFromPattern(ctx context.Context, permuted []float64, d int, k kernels.Kernel, ord ordering.Ordering, pat *ordering.Pattern, set Settings) (*Factor, error) {

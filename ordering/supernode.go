@@ -140,19 +140,43 @@ func unionSorted(dst []int32, lists [][]int32) []int32 {
 
 // aggregateMembers is the membership pass of Aggregate: walking positions from the finest,
 // an unassigned column j takes the unassigned rows i of its column with ℓᵢ ≤ λ·ℓⱼ.
+//
+// When the length scales do not decrease with position (as ReverseMaximin's), ℓᵢ ≤ λ·ℓⱼ
+// holds exactly for the positions i up to a bound that only moves forward with j, so the pass
+// reads the rows in order up to the bound and never the rows' length scales (random reads at
+// large N); the marks are bits. The result is the same either way.
 func aggregateMembers(p *Pattern, lengthScale []float64, lambda float64) (memberStart []int64, members []int32) {
 	n := p.N()
-	assigned := make([]bool, n)
+	assigned := make([]uint64, (n+63)/64)
+	taken := func(i int32) bool { return assigned[i>>6]&(1<<(uint(i)&63)) != 0 }
+	take := func(i int32) { assigned[i>>6] |= 1 << (uint(i) & 63) }
 	memberStart, members = []int64{0}, make([]int32, 0, n)
+	sorted := slices.IsSorted(lengthScale)
+	last := -1 // with sorted length scales: the last position i with ℓᵢ ≤ λ·ℓⱼ
 	for j := range n {
-		if assigned[j] {
+		if taken(int32(j)) {
 			continue
 		}
 		limit := lambda * lengthScale[j]
-		for _, i := range p.Col(j) {
-			if !assigned[i] && lengthScale[i] <= limit {
-				assigned[i] = true
-				members = append(members, i)
+		if sorted {
+			for last+1 < n && lengthScale[last+1] <= limit {
+				last++
+			}
+			for _, i := range p.Col(j) {
+				if int(i) > last {
+					break // rows are sorted
+				}
+				if !taken(i) {
+					take(i)
+					members = append(members, i)
+				}
+			}
+		} else {
+			for _, i := range p.Col(j) {
+				if !taken(i) && lengthScale[i] <= limit {
+					take(i)
+					members = append(members, i)
+				}
 			}
 		}
 		memberStart = append(memberStart, int64(len(members)))

@@ -157,3 +157,47 @@ func TestUnionSorted(t *testing.T) {
 		}
 	}
 }
+
+// aggregateMembers reads no row length scales when they do not decrease with position; both
+// of its paths must give bruteAggregate's members (DESIGN.md §3): the maximin ordering's
+// length scales (sorted), the same rounded to one significant digit (sorted, with many ties,
+// so the bound stops exactly at equal values), and random ones (not sorted: the plain path).
+func TestAggregateMembersBothPaths(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 8))
+	for _, set := range orderedSets(600, 2) {
+		pat := Radius(set.points, set.d, set.lengthScale, 3)
+		rounded := make([]float64, len(set.lengthScale))
+		random := make([]float64, len(set.lengthScale))
+		for i, l := range set.lengthScale {
+			if math.IsInf(l, 1) {
+				rounded[i] = l
+			} else {
+				e := math.Pow(10, math.Floor(math.Log10(l)))
+				rounded[i] = math.Round(l/e) * e
+			}
+			random[i] = rng.Float64()
+		}
+		for _, c := range []struct {
+			name        string
+			lengthScale []float64
+			sorted      bool
+		}{{"maximin", set.lengthScale, true}, {"rounded", rounded, true}, {"random", random, false}} {
+			if slices.IsSorted(c.lengthScale) != c.sorted {
+				t.Fatalf("%s/%s: length scales sorted = %v, want %v", set.name, c.name, !c.sorted, c.sorted)
+			}
+			for _, lambda := range []float64{1.5, 3} {
+				want, _ := bruteAggregate(pat, c.lengthScale, lambda)
+				start, members := aggregateMembers(pat, c.lengthScale, lambda)
+				if len(start)-1 != len(want) {
+					t.Fatalf("%s/%s/lambda=%g: %d supernodes, want %d", set.name, c.name, lambda, len(start)-1, len(want))
+				}
+				for s := range want {
+					got := slices.Sorted(slices.Values(members[start[s]:start[s+1]]))
+					if !slices.Equal(got, want[s]) {
+						t.Fatalf("%s/%s/lambda=%g: supernode %d has %v, want %v", set.name, c.name, lambda, s, got, want[s])
+					}
+				}
+			}
+		}
+	}
+}
