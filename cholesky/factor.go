@@ -139,7 +139,8 @@ func (s *Settings) withDefaults() Settings {
 	return out
 }
 
-// Timings records the wall-clock time of each phase of New.
+// Timings records the wall-clock time of each phase of New. Ordering includes putting the
+// points in the ordering's positions.
 type Timings struct {
 	Ordering, Pattern, Aggregation, Factor time.Duration
 }
