@@ -151,7 +151,10 @@ func aggregateMembers(p *Pattern, lengthScale []float64, lambda float64) (member
 	taken := func(i int32) bool { return assigned[i>>6]&(1<<(uint(i)&63)) != 0 }
 	take := func(i int32) { assigned[i>>6] |= 1 << (uint(i) & 63) }
 	memberStart, members = []int64{0}, make([]int32, 0, n)
-	sorted := slices.IsSorted(lengthScale)
+	sorted := true // ℓ₀ ≤ ℓ₁ ≤ …, with no NaN (which compares false)
+	for i := 1; i < n && sorted; i++ {
+		sorted = lengthScale[i-1] <= lengthScale[i]
+	}
 	last := -1 // with sorted length scales: the last position i with ℓᵢ ≤ λ·ℓⱼ
 	for j := range n {
 		if taken(int32(j)) {

@@ -161,7 +161,8 @@ func TestUnionSorted(t *testing.T) {
 // aggregateMembers reads no row length scales when they do not decrease with position; both
 // of its paths must give bruteAggregate's members (DESIGN.md §3): the maximin ordering's
 // length scales (sorted), the same rounded to one significant digit (sorted, with many ties,
-// so the bound stops exactly at equal values), and random ones (not sorted: the plain path).
+// so the bound stops exactly at equal values), random ones (not sorted: the plain path), and
+// the maximin ones with a NaN first.
 func TestAggregateMembersBothPaths(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 8))
 	for _, set := range orderedSets(600, 2) {
@@ -177,12 +178,15 @@ func TestAggregateMembersBothPaths(t *testing.T) {
 			}
 			random[i] = rng.Float64()
 		}
+		// NaN compares false, so it must send the pass down the plain path (slices.IsSorted
+		// would call this slice sorted).
+		withNaN := append([]float64{math.NaN()}, set.lengthScale[1:]...)
 		for _, c := range []struct {
 			name        string
 			lengthScale []float64
 			sorted      bool
-		}{{"maximin", set.lengthScale, true}, {"rounded", rounded, true}, {"random", random, false}} {
-			if slices.IsSorted(c.lengthScale) != c.sorted {
+		}{{"maximin", set.lengthScale, true}, {"rounded", rounded, true}, {"random", random, false}, {"nan first", withNaN, false}} {
+			if slices.IsSorted(c.lengthScale) != c.sorted && c.name != "nan first" {
 				t.Fatalf("%s/%s: length scales sorted = %v, want %v", set.name, c.name, !c.sorted, c.sorted)
 			}
 			for _, lambda := range []float64{1.5, 3} {
