@@ -131,7 +131,7 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 			applied:   make([]int64, len(roots)),
 			published: m.best(b),
 		}
-		regions[k].publish(m.best(b))
+		regions[k].publish(regions[k].published)
 	}
 	runMaximinRegions(m, regions)
 

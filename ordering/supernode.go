@@ -161,25 +161,16 @@ func aggregateMembers(p *Pattern, lengthScale []float64, lambda float64) (member
 			continue
 		}
 		limit := lambda * lengthScale[j]
-		if sorted {
-			for last+1 < n && lengthScale[last+1] <= limit {
-				last++
+		for sorted && last+1 < n && lengthScale[last+1] <= limit {
+			last++
+		}
+		for _, i := range p.Col(j) {
+			if sorted && int(i) > last {
+				break // rows ascend, so no later row qualifies
 			}
-			for _, i := range p.Col(j) {
-				if int(i) > last {
-					break // rows are sorted
-				}
-				if !taken(i) {
-					take(i)
-					members = append(members, i)
-				}
-			}
-		} else {
-			for _, i := range p.Col(j) {
-				if !taken(i) && lengthScale[i] <= limit {
-					take(i)
-					members = append(members, i)
-				}
+			if !taken(i) && (sorted || lengthScale[i] <= limit) {
+				take(i)
+				members = append(members, i)
 			}
 		}
 		memberStart = append(memberStart, int64(len(members)))
