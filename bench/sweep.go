@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"math"
 	"runtime"
 	"slices"
@@ -570,6 +571,12 @@ func runCase(ctx context.Context, c Config, rep *Report, ps, kn string, logf fun
 // cgPreconditioners are the patterns compared as CG preconditioners, where the case has them.
 var cgPreconditioners = []string{"rho=2", "rho=3", "m=10", "m=20", "m=30", "greedy-m=10", "greedy-m=20"}
 
+// cgUnaggregated are the patterns also compared without supernodes (λ = 1), named with
+// unaggregatedSuffix, unless every factor already has λ = 1.
+var cgUnaggregated = []string{"m=20", "greedy-m=20"}
+
+const unaggregatedSuffix = ",lambda=1"
+
 // runCG compares CG with no preconditioner, the diagonal and the case's factors on one case.
 // With a CG nugget the operator is Θ + σ²I, with its own dense reference and factors.
 func runCG(ctx context.Context, c Config, rep *Report, ps, kn string, points []float64, d int, k kernels.Stationary, ref *DenseReference,
@@ -602,6 +609,33 @@ func runCG(ctx context.Context, c Config, rep *Report, ps, kn string, points []f
 			factors[name] = f
 		}
 	}
+	// The same patterns without supernodes (λ = 1), where each column holds exactly its m
+	// rows: with λ > 1 the members of a supernode share the union of their rows, which gives
+	// greedy and nearest-neighbour sets different nonzero counts at equal m.
+	names := slices.Clone(cgPreconditioners)
+	factors = maps.Clone(factors) // the caller's map stays as it was
+	if factors == nil {
+		factors = map[string]*cholesky.Factor{}
+	}
+	if c.Lambda != 1 {
+		for _, name := range cgUnaggregated {
+			s, ok := settings[name]
+			if !ok {
+				continue
+			}
+			s.Lambda = 1
+			f, err := cholesky.New(ctx, points, d, k, &s)
+			if err != nil {
+				if ctx.Err() != nil {
+					return ctx.Err()
+				}
+				rep.Notes = append(rep.Notes, fmt.Sprintf("%s/%s/%s: CG preconditioner with λ = 1: %v", ps, kn, name, err))
+				continue
+			}
+			factors[name+unaggregatedSuffix] = f
+			names = append(names, name+unaggregatedSuffix)
+		}
+	}
 	cond := ref.Cholesky.Cond()
 	set := &cholesky.IterativeSettings{Tolerance: c.CGTolerance, MaxIterations: c.CGMaxIterations}
 	type pc struct {
@@ -610,7 +644,7 @@ func runCG(ctx context.Context, c Config, rep *Report, ps, kn string, points []f
 		diagonal bool
 	}
 	list := []pc{{"none", nil, false}, {"diagonal", nil, true}}
-	for _, name := range cgPreconditioners {
+	for _, name := range names {
 		if f, ok := factors[name]; ok {
 			list = append(list, pc{name, f, false})
 		}

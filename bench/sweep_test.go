@@ -5,9 +5,11 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"fmt"
+	"maps"
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -195,6 +197,70 @@ func TestRunCG(t *testing.T) {
 	t.Logf("exact: %+v; none: %+v", exact, none)
 	if exact.Iterations > 2 || !exact.Converged || !none.Converged || none.Iterations <= exact.Iterations {
 		t.Errorf("exact %+v, none %+v", exact, none)
+	}
+	// The spectrum estimates: with the exact factor P·A = I, so both Ritz values are 1 to
+	// rounding (slack 1e-8, our choice); without a preconditioner they estimate the extreme
+	// eigenvalues of Θ, here against gonum's mat.EigenSym (within 5 %, our choice; from inside
+	// the spectrum by Cauchy interlacing, slack 1e-9 for rounding).
+	if math.Abs(exact.RitzMin-1) > 1e-8 || math.Abs(exact.RitzMax-1) > 1e-8 || math.Abs(exact.Kappa-1) > 2e-8 {
+		t.Errorf("exact factor: Ritz values [%.12g, %.12g], κ %.12g; want 1", exact.RitzMin, exact.RitzMax, exact.Kappa)
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(ref.Theta, false) {
+		t.Fatal("EigenSym failed")
+	}
+	values := eig.Values(nil)
+	lo, hi := values[0], values[len(values)-1]
+	if none.RitzMin < lo*(1-1e-9) || none.RitzMax > hi*(1+1e-9) || none.RitzMin > 1.05*lo || none.RitzMax < hi/1.05 {
+		t.Errorf("no preconditioner: Ritz values [%g, %g], gonum's spectrum [%g, %g]", none.RitzMin, none.RitzMax, lo, hi)
+	}
+}
+
+func TestCGBound(t *testing.T) {
+	// The classical bound 2((√κ−1)/(√κ+1))ᵏ (Golub and Van Loan, Matrix Computations, 4th ed.,
+	// Theorem 11.3.3): κ = 9 gives the factor 1/2 per iteration, so tol = 2⁻²⁰ needs
+	// k = 21 (2·2⁻²¹ = 2⁻²⁰); κ = 1 needs none. CGBoundKappa inverts it.
+	if k := CGBoundIterations(9, math.Ldexp(1, -20)); math.Abs(k-21) > 1e-12 {
+		t.Errorf("κ = 9: k = %v, want 21", k)
+	}
+	if k := CGBoundIterations(1, 1e-8); k != 0 {
+		t.Errorf("κ = 1: k = %v, want 0", k)
+	}
+	for _, kappa := range []float64{1.01, 1.5, 3, 100, 1e6} {
+		k := CGBoundIterations(kappa, 1e-8)
+		if back := CGBoundKappa(k, 1e-8); math.Abs(back-kappa) > 1e-9*kappa {
+			t.Errorf("κ = %g: k = %g, back %g", kappa, k, back)
+		}
+	}
+}
+
+func TestRunCGWithoutSupernodes(t *testing.T) {
+	// The CG comparison adds m = 20 and greedy m = 20 without supernodes (λ = 1) when the
+	// factors have λ > 1 (0 is the library default, 1.5), and not when they already have
+	// λ = 1; the rows are checked by name, convergence and a κ estimate ≥ 1.
+	for _, lambda := range []float64{0, 1} {
+		t.Run(fmt.Sprintf("lambda=%g", lambda), func(t *testing.T) {
+			no := false
+			c := Config{N: 300, PointSets: []string{"uniform"}, Kernels: []string{"matern32"}, Rhos: []float64{2}, Neighbors: []int{20}, Greedy: []int{20}, JointGreedy: []int{},
+				Lambda: lambda, SweepCase: "uniform/matern32", Lambdas: []float64{}, NuggetSweep: []float64{}, WorkerCounts: []int{}, Nystrom: &no, ScalingN: []int{}, ExactSolveN: []int{}}
+			rep, err := Run(context.Background(), c, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got := map[string]CGRow{}
+			for _, x := range rep.CG {
+				got[x.Preconditioner] = x
+			}
+			for _, name := range []string{"m=20" + unaggregatedSuffix, "greedy-m=20" + unaggregatedSuffix} {
+				x, ok := got[name]
+				if ok != (lambda != 1) {
+					t.Fatalf("row %s present %v, want %v (rows %v, notes %v)", name, ok, lambda != 1, slices.Collect(maps.Keys(got)), rep.Notes)
+				}
+				if ok && (!x.Converged || !(x.Kappa >= 1)) {
+					t.Errorf("%s: %+v", name, x)
+				}
+			}
+		})
 	}
 }
 

@@ -61,6 +61,24 @@ type IterativeResult struct {
 	Residual float64
 	// Converged reports Residual ≤ Tolerance.
 	Converged bool
+	// RitzMin and RitzMax estimate the smallest and largest eigenvalues of the preconditioned
+	// operator P·A: they are the extreme eigenvalues (Ritz values) of the Lanczos tridiagonal
+	// matrix that conjugate gradients builds implicitly from its step lengths α and β
+	// (Y. Saad, Iterative Methods for Sparse Linear Systems, 2nd ed., SIAM 2003, §6.7.3). In
+	// exact arithmetic they lie inside [λmin(PA), λmax(PA)] (Cauchy interlacing) and move out
+	// to the extremes as the iteration goes on, so RitzMax/RitzMin is an estimate, and in
+	// exact arithmetic a lower bound, of the condition number κ(PA) that governs the
+	// iteration count. After a restart (see ConjugateGradient) they combine both runs. Both
+	// are 0 when no iteration ran.
+	RitzMin, RitzMax float64
+}
+
+// ConditionEstimate returns RitzMax/RitzMin, the estimate of κ(PA), or 0 when no iteration ran.
+func (r IterativeResult) ConditionEstimate() float64 {
+	if r.RitzMin == 0 {
+		return 0
+	}
+	return r.RitzMax / r.RitzMin
 }
 
 // Operator sets dst = A v for a symmetric positive definite A; dst and v do not overlap.
@@ -84,7 +102,7 @@ type Preconditioner func(dst, r []float64)
 //
 // The iteration is Algorithm 11.5.1 of G. H. Golub, C. F. Van Loan, Matrix Computations,
 // 4th ed., 2013 (preconditioned conjugate gradients).
-func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, precond Preconditioner, s *IterativeSettings) ([]float64, IterativeResult, error) {
+func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, precond Preconditioner, s *IterativeSettings) (_ []float64, res IterativeResult, _ error) {
 	set := s.withDefaults()
 	n := len(b)
 	if dst == nil {
@@ -94,7 +112,6 @@ func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, preco
 	}
 	x := dst
 	clear(x)
-	var res IterativeResult
 	normB := norm2(b)
 	if normB == 0 {
 		res.Converged = true
@@ -126,6 +143,23 @@ func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, preco
 	copy(p, z)
 	rz := dot(r, z)
 	rel := 1.0
+	// The Lanczos tridiagonal of the current run (since the start or the last restart):
+	// diagonal diag, off-diagonal off, with the previous step's α and β in alphaPrev, betaPrev.
+	var diag, off []float64
+	alphaPrev, betaPrev := 0.0, 0.0
+	endRun := func() {
+		if len(diag) == 0 {
+			return
+		}
+		lo, hi := tridiagonalExtremes(diag, off)
+		if res.RitzMin == 0 {
+			res.RitzMin, res.RitzMax = lo, hi
+		} else {
+			res.RitzMin, res.RitzMax = min(res.RitzMin, lo), max(res.RitzMax, hi)
+		}
+		diag, off = diag[:0], off[:0]
+	}
+	defer endRun() // res is a named result, so every return below reports the last run
 	for res.Iterations < set.MaxIterations {
 		if err := op(ctx, q, p); err != nil {
 			return x, res, err
@@ -137,6 +171,13 @@ func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, preco
 			return x, res, fmt.Errorf("cholesky: conjugate gradients: pᵀAp = %v at iteration %d: the operator is not positive definite or not finite", pq, res.Iterations)
 		}
 		alpha := rz / pq
+		if len(diag) == 0 {
+			diag = append(diag, 1/alpha)
+		} else {
+			diag = append(diag, 1/alpha+betaPrev/alphaPrev)
+			off = append(off, math.Sqrt(betaPrev)/alphaPrev)
+		}
+		alphaPrev = alpha
 		for i := range x {
 			x[i] += alpha * p[i]
 			r[i] -= alpha * q[i]
@@ -152,6 +193,7 @@ func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, preco
 				return x, res, nil
 			}
 			// Restart from the true residual.
+			endRun()
 			applyP()
 			copy(p, z)
 			rz = dot(r, z)
@@ -163,6 +205,7 @@ func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, preco
 			return x, res, fmt.Errorf("cholesky: conjugate gradients: rᵀPr = %v at iteration %d: the preconditioner is not positive definite or not finite", rzNext, res.Iterations)
 		}
 		beta := rzNext / rz
+		betaPrev = beta
 		rz = rzNext
 		for i := range p {
 			p[i] = z[i] + beta*p[i]
@@ -203,6 +246,62 @@ func (f *Factor) SolveExactTo(ctx context.Context, dst, b []float64, s *Iterativ
 	}
 	precond := func(dst, r []float64) { f.SolveTo(dst, r) }
 	return ConjugateGradient(ctx, dst, b, op, precond, &set)
+}
+
+// tridiagonalExtremes returns the smallest and largest eigenvalues of the symmetric
+// tridiagonal matrix with diagonal diag and off-diagonal off (len(off) = len(diag)−1), by
+// bisection on Sturm sequence counts inside the Gershgorin interval (G. H. Golub,
+// C. F. Van Loan, Matrix Computations, 4th ed., §8.4.1). Cost O(k) per bisection step for k
+// rows, about 100 steps each.
+func tridiagonalExtremes(diag, off []float64) (lo, hi float64) {
+	k := len(diag)
+	glo, ghi := math.Inf(1), math.Inf(-1)
+	for i, a := range diag {
+		r := 0.0
+		if i > 0 {
+			r += math.Abs(off[i-1])
+		}
+		if i < k-1 {
+			r += math.Abs(off[i])
+		}
+		glo, ghi = min(glo, a-r), max(ghi, a+r)
+	}
+	// below returns the number of eigenvalues < x: the negative pivots of T − xI (Sturm).
+	below := func(x float64) int {
+		count := 0
+		q := 1.0
+		for i, a := range diag {
+			if i == 0 {
+				q = a - x
+			} else {
+				q = a - x - off[i-1]*off[i-1]/q
+			}
+			if q == 0 {
+				q = -math.SmallestNonzeroFloat64 // perturb a zero pivot (counted as negative)
+			}
+			if q < 0 {
+				count++
+			}
+		}
+		return count
+	}
+	// eigenvalue returns the i-th smallest (0-based) by bisection of [glo, ghi].
+	eigenvalue := func(i int) float64 {
+		a, b := glo, ghi
+		for range 200 {
+			mid := a + (b-a)/2
+			if mid <= a || mid >= b {
+				break
+			}
+			if below(mid) > i {
+				b = mid
+			} else {
+				a = mid
+			}
+		}
+		return a + (b-a)/2
+	}
+	return eigenvalue(0), eigenvalue(k - 1)
 }
 
 func dot(a, b []float64) float64 {
