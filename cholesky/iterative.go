@@ -147,13 +147,14 @@ func ConjugateGradient(ctx context.Context, dst, b []float64, op Operator, preco
 	// diagonal diag, off-diagonal off, with the previous step's α and β in alphaPrev, betaPrev.
 	var diag, off []float64
 	alphaPrev, betaPrev := 0.0, 0.0
+	ritz := false // whether a run has set res.RitzMin and res.RitzMax
 	endRun := func() {
 		if len(diag) == 0 {
 			return
 		}
 		lo, hi := tridiagonalExtremes(diag, off)
-		if res.RitzMin == 0 {
-			res.RitzMin, res.RitzMax = lo, hi
+		if !ritz {
+			res.RitzMin, res.RitzMax, ritz = lo, hi, true
 		} else {
 			res.RitzMin, res.RitzMax = min(res.RitzMin, lo), max(res.RitzMax, hi)
 		}
@@ -251,8 +252,8 @@ func (f *Factor) SolveExactTo(ctx context.Context, dst, b []float64, s *Iterativ
 // tridiagonalExtremes returns the smallest and largest eigenvalues of the symmetric
 // tridiagonal matrix with diagonal diag and off-diagonal off (len(off) = len(diag)−1), by
 // bisection on Sturm sequence counts inside the Gershgorin interval (G. H. Golub,
-// C. F. Van Loan, Matrix Computations, 4th ed., §8.4.1). Cost O(k) per bisection step for k
-// rows, about 100 steps each.
+// C. F. Van Loan, Matrix Computations, 4th ed., §8.4.1), each to adjacent floats or 200
+// halvings. Cost O(k) per halving for k rows.
 func tridiagonalExtremes(diag, off []float64) (lo, hi float64) {
 	k := len(diag)
 	glo, ghi := math.Inf(1), math.Inf(-1)
