@@ -267,7 +267,7 @@ func (m *tournament) refresh(b, start, end int32) {
 	dist, slot := math.Inf(-1), int32(-1)
 	if node.right < 0 {
 		for s := start; s < end; s++ {
-			if v := m.dist[s]; v > dist || (v == dist && slot >= 0 && index[s] < index[slot]) {
+			if v := m.dist[s]; leafBeats(v, s, dist, slot, index) {
 				dist, slot = v, s
 			}
 		}
@@ -279,6 +279,13 @@ func (m *tournament) refresh(b, start, end int32) {
 		}
 	}
 	node.dist, node.slot = dist, slot
+}
+
+// leafBeats reports whether the point in slot s, at distance v, is a leaf's better best than
+// the one so far (distance best, slot slot, −1 for none yet): a larger distance, or an equal
+// one and a lower index. A picked point (−Inf) never replaces none.
+func leafBeats(v float64, s int32, best float64, slot int32, index []int32) bool {
+	return v > best || (v == best && slot >= 0 && index[s] < index[slot])
 }
 
 // lowerBound is a lower bound on the squared distance from x to the points below node b: for
@@ -317,20 +324,29 @@ func (m *tournament) update(b, start, end int32, x []float64, picked int32, with
 		}
 	}
 	if node.right < 0 {
+		// Lower the leaf's distances and find its best point in one pass, as refresh would.
 		t := m.t
 		d := t.d
+		index := t.index
+		best, slot := math.Inf(-1), int32(-1)
 		for s := start; s < end; s++ {
-			if m.dist[s] > 0 {
-				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < m.dist[s] && dist < within {
-					m.dist[s] = dist
+			v := m.dist[s]
+			if v > 0 {
+				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < v && dist < within {
+					v = dist
+					m.dist[s] = v
 				}
 			}
+			if leafBeats(v, s, best, slot, index) {
+				best, slot = v, s
+			}
 		}
-	} else {
-		mid := (start + end) / 2
-		m.update(b+1, start, mid, x, picked, within)
-		m.update(node.right, mid, end, x, picked, within)
+		node.dist, node.slot = best, slot
+		return
 	}
+	mid := (start + end) / 2
+	m.update(b+1, start, mid, x, picked, within)
+	m.update(node.right, mid, end, x, picked, within)
 	m.refresh(b, start, end)
 }
 
