@@ -353,14 +353,13 @@ func (r *Report) markdownChecks(p func(string, ...any)) {
 		}
 		p(".\n")
 	}
-	var none, rho3 *CGRow
 	byName := map[string]*CGRow{}
 	for i, x := range r.CG {
 		if x.PointSet == "uniform" && x.Kernel == "matern32" {
 			byName[x.Preconditioner] = &r.CG[i]
 		}
 	}
-	none, rho3 = byName["none"], byName["rho=3"]
+	none, rho3 := byName["none"], byName["rho=3"]
 	for _, suffix := range []string{"", unaggregatedSuffix} {
 		nearest20, greedy20 := byName["m=20"+suffix], byName["greedy-m=20"+suffix]
 		if nearest20 == nil || greedy20 == nil {

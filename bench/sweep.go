@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"maps"
 	"math"
 	"runtime"
 	"slices"
@@ -609,14 +608,22 @@ func runCG(ctx context.Context, c Config, rep *Report, ps, kn string, points []f
 			factors[name] = f
 		}
 	}
+	cond := ref.Cholesky.Cond()
+	set := &cholesky.IterativeSettings{Tolerance: c.CGTolerance, MaxIterations: c.CGMaxIterations}
+	type pc struct {
+		name     string
+		f        *cholesky.Factor
+		diagonal bool
+	}
+	list := []pc{{"none", nil, false}, {"diagonal", nil, true}}
+	for _, name := range cgPreconditioners {
+		if f, ok := factors[name]; ok {
+			list = append(list, pc{name, f, false})
+		}
+	}
 	// The same patterns without supernodes (λ = 1), where each column holds exactly its m
 	// rows: with λ > 1 the members of a supernode share the union of their rows, which gives
 	// greedy and nearest-neighbour sets different nonzero counts at equal m.
-	names := slices.Clone(cgPreconditioners)
-	factors = maps.Clone(factors) // the caller's map stays as it was
-	if factors == nil {
-		factors = map[string]*cholesky.Factor{}
-	}
 	if c.Lambda != 1 {
 		for _, name := range cgUnaggregated {
 			s, ok := settings[name]
@@ -632,21 +639,7 @@ func runCG(ctx context.Context, c Config, rep *Report, ps, kn string, points []f
 				rep.Notes = append(rep.Notes, fmt.Sprintf("%s/%s/%s: CG preconditioner with λ = 1: %v", ps, kn, name, err))
 				continue
 			}
-			factors[name+unaggregatedSuffix] = f
-			names = append(names, name+unaggregatedSuffix)
-		}
-	}
-	cond := ref.Cholesky.Cond()
-	set := &cholesky.IterativeSettings{Tolerance: c.CGTolerance, MaxIterations: c.CGMaxIterations}
-	type pc struct {
-		name     string
-		f        *cholesky.Factor
-		diagonal bool
-	}
-	list := []pc{{"none", nil, false}, {"diagonal", nil, true}}
-	for _, name := range names {
-		if f, ok := factors[name]; ok {
-			list = append(list, pc{name, f, false})
+			list = append(list, pc{name + unaggregatedSuffix, f, false})
 		}
 	}
 	for _, p := range list {

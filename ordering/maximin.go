@@ -206,7 +206,7 @@ const tournamentInlineDims = 2
 // holds all slots and a node [start, end) splits at (start+end)/2 (flatTree.addNode), so the
 // update passes ranges down; the left child is the next node.
 type tournamentNode struct {
-	dist  float64 // the best unpicked point below the node: its distance
+	dist  float64 // the best unpicked point below the node: its distance (−Inf if none)
 	slot  int32   // and tree slot, −1 if every point below is picked
 	right int32   // the right child, −1 for a leaf
 	// box holds low₀, high₀, low₁, high₁ when d ≤ tournamentInlineDims, rounded outwards to
@@ -267,24 +267,25 @@ func (m *tournament) refresh(b, start, end int32) {
 	dist, slot := math.Inf(-1), int32(-1)
 	if node.right < 0 {
 		for s := start; s < end; s++ {
-			if v := m.dist[s]; leafBeats(v, s, dist, slot, index) {
+			if v := m.dist[s]; beats(v, s, dist, slot, index) {
 				dist, slot = v, s
 			}
 		}
 	} else {
 		left, right := &m.nodes[b+1], &m.nodes[node.right]
 		dist, slot = left.dist, left.slot
-		if right.slot >= 0 && (slot < 0 || right.dist > dist || (right.dist == dist && index[right.slot] < index[slot])) {
+		if beats(right.dist, right.slot, dist, slot, index) {
 			dist, slot = right.dist, right.slot
 		}
 	}
 	node.dist, node.slot = dist, slot
 }
 
-// leafBeats reports whether the point in slot s, at distance v, is a leaf's better best than
-// the one so far (distance best, slot slot, −1 for none yet): a larger distance, or an equal
-// one and a lower index. A picked point (−Inf) never replaces none.
-func leafBeats(v float64, s int32, best float64, slot int32, index []int32) bool {
+// beats reports whether the point in slot s at distance v is a better best than the one so
+// far (distance best, slot slot; −Inf and −1 for none): a larger distance, or an equal one and
+// a lower index. A picked point or an empty child (−Inf) never replaces anything, and index[s]
+// is read only for a tie with a point, so never with s = −1.
+func beats(v float64, s int32, best float64, slot int32, index []int32) bool {
 	return v > best || (v == best && slot >= 0 && index[s] < index[slot])
 }
 
@@ -337,7 +338,7 @@ func (m *tournament) update(b, start, end int32, x []float64, picked int32, with
 					m.dist[s] = v
 				}
 			}
-			if leafBeats(v, s, best, slot, index) {
+			if beats(v, s, best, slot, index) {
 				best, slot = v, s
 			}
 		}
