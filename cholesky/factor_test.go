@@ -136,8 +136,8 @@ func TestWorkersGiveIdenticalBits(t *testing.T) {
 					ref = f
 					continue
 				}
-				if len(f.values) != len(ref.values) {
-					t.Fatalf("workers=%d: nnz %d, want %d", workers, len(f.values), len(ref.values))
+				if f.NNZ() != ref.NNZ() {
+					t.Fatalf("workers=%d: nnz %d, want %d", workers, f.NNZ(), ref.NNZ())
 				}
 				for j := range f.n {
 					rows, vals := f.col(j)

@@ -153,7 +153,7 @@ func (f *Factor) WriteTo(w io.Writer) (int64, error) {
 	e.u32(FormatVersion)
 	e.u32(uint32(f.d))
 	e.u64(uint64(f.n))
-	e.u64(uint64(len(f.values)))
+	e.u64(uint64(f.colStart[f.n]))
 	e.f64(f.rho)
 	e.u32(uint32(f.neighbors))
 	e.u32(uint32(f.jittered))
@@ -191,7 +191,9 @@ func (f *Factor) WriteTo(w io.Writer) (int64, error) {
 			e.u32(uint32(r))
 		}
 	}
-	e.f64s(f.values)
+	for _, b := range f.values {
+		e.f64s(b)
+	}
 	e.flush()
 	if e.err != nil {
 		return e.n, e.err
@@ -433,7 +435,7 @@ func read(r io.Reader, size int64) (*Factor, error) {
 	f.lengthScale = dec.f64s(n, "length scales")
 	starts := dec.u64s(n+1, "column starts")
 	rows := dec.u32s(nnz, "rows")
-	f.values = dec.f64s(nnz, "values")
+	values := dec.f64s(nnz, "values")
 	want := dec.crc
 	sum := dec.next(4, "checksum")
 	if dec.err != nil {
@@ -499,11 +501,11 @@ func read(r io.Reader, size int64) (*Factor, error) {
 				return nil, fmt.Errorf("column %d: rows not strictly ascending (%d after %d)", j, r, rows[e-1])
 			}
 			f.rows[e] = int32(r)
-			if v := f.values[e]; math.IsNaN(v) || math.IsInf(v, 0) {
+			if v := values[e]; math.IsNaN(v) || math.IsInf(v, 0) {
 				return nil, fmt.Errorf("column %d, row %d: value %v", j, r, v)
 			}
 		}
-		if v := f.values[lo]; !(v > 0) {
+		if v := values[lo]; !(v > 0) {
 			return nil, fmt.Errorf("column %d: diagonal %v, want > 0", j, v)
 		}
 	}
@@ -518,6 +520,7 @@ func read(r io.Reader, size int64) (*Factor, error) {
 	}
 	f.superRowStart = f.colStart
 	f.rowStart = f.colStart[:n]
+	f.values = newValueBlocks(f.colStart, values)
 	return f, nil
 }
 

@@ -22,7 +22,7 @@ func (f *Factor) N() int { return f.n }
 func (f *Factor) Dim() int { return f.d }
 
 // NNZ returns the number of stored nonzeros of L.
-func (f *Factor) NNZ() int { return len(f.values) }
+func (f *Factor) NNZ() int { return int(f.colStart[f.n]) }
 
 // Kernel returns the kernel the factor approximates.
 func (f *Factor) Kernel() kernels.Kernel { return f.kernel }
@@ -75,7 +75,7 @@ func (f *Factor) LengthScales() []float64 { return append([]float64(nil), f.leng
 func (f *Factor) LogDet() float64 {
 	var s float64
 	for j := range f.n {
-		s += math.Log(f.values[f.colStart[j]])
+		s += math.Log(f.colValues(j)[0])
 	}
 	return -2 * s
 }

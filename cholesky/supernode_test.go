@@ -1,6 +1,7 @@
 package cholesky
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"math"
@@ -225,7 +226,7 @@ func TestGroupedMemberSolvesMatchSingleSolves(t *testing.T) {
 		if f.jittered != 0 {
 			t.Fatalf("%+v: %d jittered columns; the check needs none", set, f.jittered)
 		}
-		computed := slices.Clone(f.values)
+		computed := allValues(f)
 		w := newWorkspace(f.maxRowSet())
 		groups := map[int]int{}
 		for s := range len(f.memberStart) - 1 {
@@ -249,14 +250,52 @@ func TestGroupedMemberSolvesMatchSingleSolves(t *testing.T) {
 				}
 			}
 		}
+		alone := allValues(f)
 		for i := range computed {
-			if math.Float64bits(computed[i]) != math.Float64bits(f.values[i]) {
-				t.Fatalf("%+v: value %d is %v grouped, %v alone", set, i, computed[i], f.values[i])
+			if math.Float64bits(computed[i]) != math.Float64bits(alone[i]) {
+				t.Fatalf("%+v: value %d is %v grouped, %v alone", set, i, computed[i], alone[i])
 			}
 		}
 		// The check means something only if groups of 2 and 4 (and a remainder) occur.
 		if groups[2]+groups[3] == 0 || groups[4]+groups[5] == 0 {
 			t.Fatalf("%+v: supernodes by member count (5 = 5 or more) %v: no grouped solves", set, groups)
 		}
+	}
+}
+
+func TestValuesAcrossBlocks(t *testing.T) {
+	// The values are stored in blocks of valueBlockColumns columns. With N spanning several
+	// blocks, every column must still be the per-column closed form on its rows (checked
+	// against gonum's dense Cholesky, as in TestSupernodalEqualsColumnwiseOnAggregatedPattern),
+	// and a file written from the blocks and read back (one allocation, viewed as blocks) must
+	// give the same bits.
+	const tolerance, condFactor = 1e-12, 10.0
+	n := 2*valueBlockColumns + valueBlockColumns/2 + 17
+	points := uniformPoints(n, 2, 45)
+	k := kernels.Stationary{Family: kernels.Matern32, Dimension: 2, LengthScale: 0.05, Nugget: 1e-6}
+	f, err := New(context.Background(), points, 2, k, &Settings{Rho: 2, Lambda: 1.5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(f.values) != 3 {
+		t.Fatalf("%d value blocks for %d columns, want 3", len(f.values), n)
+	}
+	for j := range n {
+		rows, vals := f.col(j)
+		want, cond := bruteColumn(t, k, f.points, 2, rows)
+		if e := relativeError(vals, want); e > max(tolerance, condFactor*cond*0x1p-52) {
+			t.Fatalf("column %d (block %d): relative error %.3g (local cond %.3g)", j, j/valueBlockColumns, e, cond)
+		}
+	}
+	var buf bytes.Buffer
+	if _, err := f.WriteTo(&buf); err != nil {
+		t.Fatal(err)
+	}
+	g, err := Read(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !sameBits(allValues(g), allValues(f)) {
+		t.Fatal("values differ after a file round trip")
 	}
 }

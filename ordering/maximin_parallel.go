@@ -128,6 +128,7 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 		regions[k] = &maximinRegion{
 			root: b, start: node.start, end: node.end, low: box[:d], high: box[d:],
 			sent:      make([]tournamentBest, node.end-node.start),
+			picks:     make([]tournamentBest, 0, node.end-node.start),
 			applied:   make([]int64, len(roots)),
 			published: m.best(b),
 		}

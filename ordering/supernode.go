@@ -72,8 +72,17 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 	chunks := (supernodes + aggregateChunk - 1) / aggregateChunk
 	rows := make([][]int32, chunks)
 	sizes := make([]int64, supernodes)
+	if n < patternSerialBelow {
+		workers = 1
+	}
+	// Each chunk merges into a scratch buffer that one worker at a time reuses, and keeps an
+	// exact copy (see assemblePattern).
+	scratch := make(chan []int32, workers)
+	for range workers {
+		scratch <- nil
+	}
 	task := func(c int) {
-		var buf []int32
+		buf := <-scratch
 		var heads [][]int32
 		for sn := c * aggregateChunk; sn < min(supernodes, (c+1)*aggregateChunk); sn++ {
 			before := len(buf)
@@ -84,10 +93,8 @@ func (s Settings) Aggregate(p *Pattern, lengthScale []float64, lambda float64) *
 			buf = unionSorted(buf, heads)
 			sizes[sn] = int64(len(buf) - before)
 		}
-		rows[c] = buf
-	}
-	if n < patternSerialBelow {
-		workers = 1
+		rows[c] = slices.Clone(buf)
+		scratch <- buf[:0]
 	}
 	forEachChunk(chunks, workers, task)
 	out.RowStart = make([]int64, supernodes+1)
