@@ -98,8 +98,20 @@ func (s Settings) Radius(points []float64, d int, lengthScale []float64, rho flo
 		slices.Sort(dst[start:])
 		return dst
 	}
+	// Which columns take every row is looked up in a bitmap-sized array, not in lengthScale:
+	// queryOrder visits columns in tree order, and random reads of 8 bytes per column cost
+	// more at N = 10⁶ than the queries' own bookkeeping. Usually only the first pick is +Inf.
+	var all []bool
+	for j, l := range lengthScale {
+		if math.IsInf(l, 1) {
+			if all == nil {
+				all = make([]bool, n)
+			}
+			all[j] = true
+		}
+	}
 	order := queryOrder(n, trees, func(j int) int {
-		if math.IsInf(lengthScale[j], 1) {
+		if all != nil && all[j] {
 			return 0
 		}
 		return n - j

@@ -250,3 +250,107 @@ func TestFlatTreeParallelBuildIsSerialBuild(t *testing.T) {
 		}
 	}
 }
+
+// checkFlatTree checks the structure of a flat tree of the points with indices want (in slot
+// order): each node's children split its slots in two, leaves hold at most flatLeafSize
+// points (the test sets have no duplicates), no node is empty, and every box and largest
+// index is the tight one of the node's points.
+func checkFlatTree(t *testing.T, name string, tree *flatTree, want []int32) {
+	t.Helper()
+	d := tree.d
+	if !slices.Equal(tree.index, want) {
+		t.Fatalf("%s: the tree holds indices %v, want %v", name, tree.index, want)
+	}
+	if len(want) == 0 {
+		if len(tree.nodes) != 0 {
+			t.Fatalf("%s: an empty tree has %d nodes", name, len(tree.nodes))
+		}
+		return
+	}
+	if n := tree.nodes[0]; n.start != 0 || int(n.end) != len(want) {
+		t.Fatalf("%s: the root holds slots [%d, %d), want [0, %d)", name, n.start, n.end, len(want))
+	}
+	for b, node := range tree.nodes {
+		if node.end <= node.start {
+			t.Fatalf("%s: node %d is empty", name, b)
+		}
+		if node.left < 0 {
+			if node.end-node.start > flatLeafSize {
+				t.Fatalf("%s: leaf %d holds %d points", name, b, node.end-node.start)
+			}
+		} else {
+			l, r := tree.nodes[node.left], tree.nodes[node.right]
+			if l.start != node.start || l.end != r.start || r.end != node.end {
+				t.Fatalf("%s: node %d [%d, %d) has children [%d, %d) and [%d, %d)", name, b, node.start, node.end, l.start, l.end, r.start, r.end)
+			}
+		}
+		box := tree.boxes[2*d*b : 2*d*(b+1)]
+		for k := range d {
+			low, high := math.Inf(1), math.Inf(-1)
+			for s := node.start; s < node.end; s++ {
+				low, high = min(low, tree.coords[int(s)*d+k]), max(high, tree.coords[int(s)*d+k])
+			}
+			if box[k] != low || box[d+k] != high {
+				t.Fatalf("%s: node %d coordinate %d box [%v, %v], points span [%v, %v]", name, b, k, box[k], box[d+k], low, high)
+			}
+		}
+		if m := slices.Max(tree.index[node.start:node.end]); node.maxIndex != m {
+			t.Fatalf("%s: node %d maxIndex %d, want %d", name, b, node.maxIndex, m)
+		}
+	}
+}
+
+// A subset tree must be a well-formed tree of exactly the points with index ≥ lo, in the
+// parent's slot order, and answer every query as the O(n) definitions do (bruteKNN,
+// bruteRadius); subsets of subsets too, as newSuffixTrees chains them.
+func TestFlatTreeSubset(t *testing.T) {
+	n := 600
+	if testing.Short() {
+		n = 200
+	}
+	for _, d := range []int{1, 2, 3} {
+		for _, set := range testPointSets(n, d) {
+			base := n / 10
+			parent := newFlatTree(set.points, d, base, n, 1)
+			for _, lo := range []int{0, base, n / 3, n / 2, n - 40, n - 1, n, n + 5} {
+				tree := parent.subset(int32(lo))
+				for step := range 2 {
+					from := max(lo, base)
+					if step == 1 { // a subset of the subset
+						from = max(from, n-(n-from)/3)
+						tree = tree.subset(int32(from))
+					}
+					name := fmt.Sprintf("d=%d/set=%s/lo=%d/step=%d", d, set.name, lo, step)
+					var want []int32
+					for _, i := range parent.index {
+						if int(i) >= from {
+							want = append(want, i)
+						}
+					}
+					checkFlatTree(t, name, tree, want)
+					rng := rand.New(rand.NewPCG(2, uint64(lo)))
+					var w searchWork
+					for q := range 10 {
+						x := slices.Clone(set.points[rng.IntN(n)*d:][:d])
+						if q%2 == 1 {
+							x[0] += 0.3 * rng.Float64()
+						}
+						minIndex := []int{0, from, (from + n) / 2}[q%3]
+						for _, k := range []int{1, 7, n} {
+							if got, want := tree.knn(nil, x, k, int32(minIndex), &w), bruteKNN(set.points, d, from, n, x, k, minIndex); !slices.Equal(got, want) {
+								t.Errorf("%s/query=%d/k=%d: knn = %v, want %v", name, q, k, got, want)
+							}
+						}
+						for _, r := range []float64{0, 1, 0.1, plainDistance(x, set.points[rng.IntN(n)*d:][:d])} {
+							got := tree.radius(nil, x, r, int32(minIndex), &w)
+							slices.Sort(got)
+							if want := bruteRadius(set.points, d, from, n, x, r, minIndex); !slices.Equal(got, want) {
+								t.Errorf("%s/query=%d/r=%g: radius = %v, want %v", name, q, r, got, want)
+							}
+						}
+					}
+				}
+			}
+		}
+	}
+}
