@@ -442,11 +442,12 @@ func (f *Factor) estimateMemory(workers int) int64 {
 		8*n*int64(f.d) + 24*n + int64(workers)*(8*u*u+8*memberGroup*u+4*u)
 }
 
-// valueBlockColumns is the number of consecutive columns whose values share one allocation.
-// One allocation for all values (140 MB at N = 10⁶, ρ = 3) always lands on memory the process
-// has never touched, which on this project's test machines costs 150–550 ms to fault in;
-// blocks of 2¹³ columns (about 1 MB at ρ = 3) mostly reuse memory the ordering and the pattern
-// freed: 11–55 ms for the same values, measured in the same runs.
+// valueBlockColumns is the number of consecutive columns whose values share one allocation
+// (a power of two: colValues masks with it). In our measurements one allocation for all
+// values (140 MB at N = 10⁶, ρ = 3) landed on memory the process had never touched, which on
+// the development machines took 150–550 ms to fault in; blocks of 2¹³ columns (about 1 MB
+// at ρ = 3) mostly reused memory the ordering and the pattern had freed: 11–55 ms for the
+// same values, in the same runs.
 const valueBlockColumns = 1 << 13
 
 // newValueBlocks returns the value blocks for the column starts colStart. With all == nil
