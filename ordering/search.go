@@ -216,20 +216,8 @@ func (t *flatTree) build(start, end int) int32 {
 // unless it is a leaf, reorders the slots around the median mid of its widest coordinate.
 func (t *flatTree) addNode(start, end int) (id int32, mid int, split bool) {
 	d := t.d
-	id = int32(len(t.nodes))
-	t.nodes = append(t.nodes, flatNode{start: int32(start), end: int32(end), left: -1, right: -1})
-	b := len(t.boxes)
-	t.boxes = slices.Grow(t.boxes, 2*d)[:b+2*d]
-	low, high := t.boxes[b:b+d], t.boxes[b+d:b+2*d]
-	copy(low, t.coords[start*d:(start+1)*d])
-	copy(high, t.coords[start*d:(start+1)*d])
-	for s := start + 1; s < end; s++ {
-		for k, v := range t.coords[s*d : (s+1)*d] {
-			low[k] = min(low[k], v)
-			high[k] = max(high[k], v)
-		}
-	}
-	t.nodes[id].maxIndex = slices.Max(t.index[start:end])
+	id = t.appendNode(start, end)
+	low, high := t.boxes[2*d*int(id):2*d*int(id)+d], t.boxes[2*d*int(id)+d:2*d*int(id+1)]
 	if end-start <= flatLeafSize {
 		return id, 0, false
 	}
@@ -245,6 +233,27 @@ func (t *flatTree) addNode(start, end int) (id int32, mid int, split bool) {
 	mid = (start + end) / 2
 	selectNth(t.coords[start*d:end*d], t.index[start:end], mid-start, d, dim)
 	return id, mid, true
+}
+
+// appendNode appends a leaf node for tree slots [start, end) (start < end) with the box and
+// largest index of its points, and returns its id.
+func (t *flatTree) appendNode(start, end int) int32 {
+	d := t.d
+	id := int32(len(t.nodes))
+	t.nodes = append(t.nodes, flatNode{start: int32(start), end: int32(end), left: -1, right: -1})
+	b := len(t.boxes)
+	t.boxes = slices.Grow(t.boxes, 2*d)[:b+2*d]
+	low, high := t.boxes[b:b+d], t.boxes[b+d:b+2*d]
+	copy(low, t.coords[start*d:(start+1)*d])
+	copy(high, low)
+	for s := start + 1; s < end; s++ {
+		for k, v := range t.coords[s*d : (s+1)*d] {
+			low[k] = min(low[k], v)
+			high[k] = max(high[k], v)
+		}
+	}
+	t.nodes[id].maxIndex = slices.Max(t.index[start:end])
+	return id
 }
 
 // selectNth reorders the points (coords, d per point, with their index) so that point k has
@@ -635,24 +644,15 @@ func (c *flatTree) subsetNode(t *flatTree, b int32, before []int32) int32 {
 	}
 	node := t.nodes[b]
 	start, end := before[node.start], before[node.end]
+	if node.left < 0 || end-start <= flatLeafSize {
+		return c.appendNode(int(start), int(end))
+	}
+	// An inner node: its box and largest index come from its children's, after them.
 	d := c.d
 	id := int32(len(c.nodes))
 	c.nodes = append(c.nodes, flatNode{start: start, end: end, left: -1, right: -1})
 	at := len(c.boxes)
 	c.boxes = slices.Grow(c.boxes, 2*d)[:at+2*d]
-	if node.left < 0 || end-start <= flatLeafSize {
-		low, high := c.boxes[at:at+d], c.boxes[at+d:at+2*d]
-		copy(low, c.coords[int(start)*d:int(start+1)*d])
-		copy(high, low)
-		for s := start + 1; s < end; s++ {
-			for k, v := range c.coords[int(s)*d : int(s+1)*d] {
-				low[k] = min(low[k], v)
-				high[k] = max(high[k], v)
-			}
-		}
-		c.nodes[id].maxIndex = slices.Max(c.index[start:end])
-		return id
-	}
 	left := c.subsetNode(t, node.left, before)
 	right := c.subsetNode(t, node.right, before)
 	box := c.boxes[at : at+2*d]
