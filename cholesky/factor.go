@@ -227,7 +227,7 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 	report := set.progress()
 	start := time.Now()
 	report(Progress{PhaseOrdering, 0, 1})
-	ord := ordering.Settings{Workers: set.Workers}.ReverseMaximin(points, d, nil)
+	ord, tree := ordering.Settings{Workers: set.Workers}.ReverseMaximinTree(points, d, nil)
 	permuted := permutePoints(points, d, ord.Order, set.Workers)
 	report(Progress{PhaseOrdering, 1, 1})
 	orderTime := time.Since(start)
@@ -237,7 +237,8 @@ func New(ctx context.Context, points []float64, d int, k kernels.Kernel, s *Sett
 	start = time.Now()
 	report(Progress{PhasePattern, 0, 1})
 	var pat *ordering.Pattern
-	builder := ordering.Settings{Workers: set.Workers}
+	// The pattern searches the kd-tree the ordering built (by position) instead of its own.
+	builder := ordering.Settings{Workers: set.Workers}.WithTree(tree)
 	if set.JointGreedy {
 		sn := builder.GreedySupernodes(permuted, d, ord.LengthScale, k, set.Neighbors, set.Candidates, set.Lambda)
 		report(Progress{PhasePattern, 1, 1})

@@ -89,7 +89,7 @@ func (s Settings) Greedy(points []float64, d int, k kernels.Kernel, m, c int) *P
 	workers := s.workers()
 	var trees *suffixTrees
 	if m > 0 {
-		trees = newSuffixTrees(s.search, points, d, n, workers)
+		trees = s.suffixTrees(points, d, n, workers)
 	}
 	sel := greedySelector{points: points, d: d, n: n, kernel: k, m: m, c: c, trees: trees, prior: priorVariances(points, k, n, m)}
 	order := queryOrder(n, trees, func(j int) int {

@@ -55,7 +55,7 @@ func BenchmarkGreedyColumn(b *testing.B) {
 	}
 	x := greedyPositionOrder(raw, 2)
 	k := kernels.Stationary{Family: kernels.Matern32, Dimension: 2, LengthScale: 0.05}
-	trees := newSuffixTrees(searchFlat, x, 2, n, 1)
+	trees := newSuffixTrees(searchFlat, x, 2, n, 1, nil)
 	for _, m := range []int{10, 20, 30} {
 		b.Run(fmt.Sprintf("n=%d/m=%d/c=%d", n, m, 4*m), func(b *testing.B) {
 			sel := greedySelector{points: x, d: 2, n: n, kernel: k, m: m, c: 4 * m, trees: trees, prior: priorVariances(x, k, n, m)}

@@ -67,7 +67,7 @@ func (s Settings) GreedySupernodes(points []float64, d int, lengthScale []float6
 	workers := s.workers()
 	sel := jointSelector{
 		points: points, d: d, n: n, kernel: k, m: m, c: c, out: out,
-		trees: newSuffixTrees(s.search, points, d, n, workers),
+		trees: s.suffixTrees(points, d, n, workers),
 		prior: priorVariances(points, k, n, m),
 	}
 	count := out.Len()

@@ -172,7 +172,7 @@ func TestGreedyEqualsBruteForce(t *testing.T) {
 					if cc == 0 {
 						cc = DefaultCandidatesPerNeighbor * m
 					}
-					trees := newSuffixTrees(searchFlat, x, set.d, n, 1)
+					trees := newSuffixTrees(searchFlat, x, set.d, n, 1, nil)
 					sel := greedySelector{points: x, d: set.d, n: n, kernel: k, m: m, c: cc, trees: trees, prior: priorVariances(x, k, n, m)}
 					var w greedyWork
 					nearTies := 0
@@ -264,7 +264,7 @@ func TestGreedyConditionalVarianceMatchesDense(t *testing.T) {
 				name := fmt.Sprintf("%s/n=%d/%v/l=0.1/m=%d/c=%d", set.name, n, family, m, 4*m)
 				t.Run(name, func(t *testing.T) {
 					k := kernels.Stationary{Family: family, Dimension: set.d, LengthScale: 0.1}
-					trees := newSuffixTrees(searchFlat, x, set.d, n, 1)
+					trees := newSuffixTrees(searchFlat, x, set.d, n, 1, nil)
 					sel := greedySelector{points: x, d: set.d, n: n, kernel: k, m: m, c: 4 * m, trees: trees, prior: priorVariances(x, k, n, m)}
 					var w greedyWork
 					worst := 0.0
@@ -421,7 +421,7 @@ func TestGreedyColumnAllocatesNothing(t *testing.T) {
 	// STYLE.md 6: after the workspace is sized, a column allocates nothing.
 	x := greedyPositionOrder(greedyPointSets(2000)[0].points, 2)
 	k := kernels.Stationary{Family: kernels.Matern32, Dimension: 2, LengthScale: 0.1}
-	trees := newSuffixTrees(searchFlat, x, 2, 2000, 1)
+	trees := newSuffixTrees(searchFlat, x, 2, 2000, 1, nil)
 	sel := greedySelector{points: x, d: 2, n: 2000, kernel: k, m: 20, c: 80, trees: trees, prior: priorVariances(x, k, 2000, 20)}
 	var w greedyWork
 	dst := make([]int32, 0, 64)

@@ -45,6 +45,13 @@ func ReverseMaximin(points []float64, d int, boundary []float64) Ordering {
 // Panics if d < 1, len(points)%d != 0, len(boundary)%d != 0, n ≥ 2³¹−1 or a coordinate is
 // not finite.
 func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Ordering {
+	ord, _ := s.reverseMaximin(points, d, boundary)
+	return ord
+}
+
+// reverseMaximin is ReverseMaximin, also returning the flat kd-tree of the points it searched
+// (nil with another searcher or no points).
+func (s Settings) reverseMaximin(points []float64, d int, boundary []float64) (Ordering, *flatTree) {
 	n := checkPoints(points, d)
 	if len(boundary)%d != 0 {
 		panic(fmt.Sprintf("ordering: boundary length %d is not a multiple of d = %d", len(boundary), d))
@@ -52,7 +59,7 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 	checkFinite(boundary, d, "boundary point")
 	ord := Ordering{Order: make([]int, n), LengthScale: make([]float64, n)}
 	if n == 0 {
-		return ord
+		return ord, nil
 	}
 	point := func(i int32) []float64 { return points[int(i)*d : int(i+1)*d] }
 	nextPosition := n - 1
@@ -97,12 +104,13 @@ func (s Settings) ReverseMaximin(points []float64, d int, boundary []float64) Or
 		initial[first] = math.Inf(-1)
 	}
 
-	if s.search == searchFlat {
-		maximinTournament(newFlatTree(points, d, 0, n, s.workers()), initial, s.workers(), record)
-	} else {
+	if s.search != searchFlat {
 		maximinHeapSearch(newSearcher(s.search, points, d, 0, n, s.workers()), points, d, initial, record)
+		return ord, nil
 	}
-	return ord
+	tree := newFlatTree(points, d, 0, n, s.workers())
+	maximinTournament(tree, initial, s.workers(), record)
+	return ord, tree
 }
 
 // maximinHeapSearch picks the remaining points with an index-tracked max-heap of distances and

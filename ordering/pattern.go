@@ -18,6 +18,8 @@ type Settings struct {
 
 	// search selects the neighbour search; the zero value is the flat kd-tree.
 	search searchKind
+	// tree, if not nil, is the ordering's kd-tree for the pattern builders (WithTree).
+	tree *Tree
 }
 
 func (s Settings) workers() int {
@@ -84,7 +86,7 @@ func (s Settings) Radius(points []float64, d int, lengthScale []float64, rho flo
 	workers := s.workers()
 	var trees *suffixTrees
 	if !math.IsInf(rho, 1) {
-		trees = newSuffixTrees(s.search, points, d, n, workers)
+		trees = s.suffixTrees(points, d, n, workers)
 	}
 	column := func(dst []int32, j int, w *searchWork) []int32 {
 		if trees == nil || math.IsInf(lengthScale[j], 1) {
@@ -137,7 +139,7 @@ func (s Settings) NearestNeighbors(points []float64, d int, m int) *Pattern {
 		panic(fmt.Sprintf("ordering: m = %d < 0", m))
 	}
 	workers := s.workers()
-	trees := newSuffixTrees(s.search, points, d, n, workers)
+	trees := s.suffixTrees(points, d, n, workers)
 	column := func(dst []int32, j int, w *searchWork) []int32 {
 		dst = append(dst, int32(j))
 		if j == n-1 || m == 0 {

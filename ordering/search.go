@@ -569,15 +569,26 @@ type suffixTrees struct {
 // smaller one is derived from the next larger by subset, in O(its parent's size), so all but
 // the first cost about one more pass over the points. At N = 10⁶ (ρ = 3) building them all
 // took 0.30 s of the radius pattern's 0.9 s; with subsets the pattern took 0.80 s against
-// 1.0 s (medians of 4 alternating runs).
-func newSuffixTrees(kind searchKind, points []float64, d, n, workers int) *suffixTrees {
+// 1.0 s (medians of 4 alternating runs). With a Tree from the ordering (Settings.WithTree),
+// the largest is that tree, relabelled by position.
+func (s Settings) suffixTrees(points []float64, d, n, workers int) *suffixTrees {
+	return newSuffixTrees(s.search, points, d, n, workers, s.tree)
+}
+
+func newSuffixTrees(kind searchKind, points []float64, d, n, workers int, reuse *Tree) *suffixTrees {
 	if n == 0 {
 		return &suffixTrees{}
 	}
 	s := &suffixTrees{trees: make([]searcher, bits.Len(uint(n-1))+1)}
 	if kind == searchFlat {
 		top := len(s.trees) - 1
-		t := newFlatTree(points, d, max(0, n-1<<top), n, workers)
+		// The largest suffix, [max(0, n−2ᵗᵒᵖ), n), is every position.
+		var t *flatTree
+		if reuse != nil {
+			t = reuse.positions(points, d)
+		} else {
+			t = newFlatTree(points, d, 0, n, workers)
+		}
 		s.trees[top] = t
 		for k := top - 1; k >= 0; k-- {
 			t = t.subset(int32(max(0, n-1<<k)))

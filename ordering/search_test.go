@@ -219,7 +219,7 @@ func TestFlatTreeQueriesDoNotAllocate(t *testing.T) {
 
 func TestSuffixTreesCovering(t *testing.T) {
 	points := latticePoints(37, 1)
-	s := newSuffixTrees(searchFlat, points, 1, 37, 2)
+	s := newSuffixTrees(searchFlat, points, 1, 37, 2, nil)
 	var w searchWork
 	for count := 1; count <= 37; count++ {
 		// The covering tree must hold every position ≥ 37−count and fewer than 2·count points
