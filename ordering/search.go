@@ -585,7 +585,7 @@ func newSuffixTrees(kind searchKind, points []float64, d, n, workers int, reuse 
 		// The largest suffix, [max(0, n−2ᵗᵒᵖ), n), is every position.
 		var t *flatTree
 		if reuse != nil {
-			t = reuse.positions(points, d)
+			t = reuse.positions(points, d, workers)
 		} else {
 			t = newFlatTree(points, d, 0, n, workers)
 		}

@@ -2,6 +2,7 @@ package ordering
 
 import (
 	"fmt"
+	"slices"
 	"sync"
 )
 
@@ -10,8 +11,8 @@ import (
 // Settings.WithTree). Building it took 0.23–0.24 s on 2 workers at N = 10⁶ (2D uniform), a
 // tenth of a run of cholesky.New at ρ = 3.
 //
-// It holds a copy of the points (N·d float64) and about 2.3 N bytes of nodes and boxes; let
-// it go once the patterns are built. It is safe for concurrent use.
+// It holds a copy of the points (N·d float64) and about (5 + d/2)·N bytes of indices, nodes
+// and boxes; let it go once the patterns are built. It is safe for concurrent use.
 type Tree struct {
 	once   sync.Once
 	flat   *flatTree // by input index until relabelled, then nil
@@ -41,30 +42,49 @@ func (s Settings) WithTree(t *Tree) Settings {
 	return s
 }
 
+// relabelChunk is the number of slots one task of positions relabels.
+const relabelChunk = 1 << 15
+
 // positions returns the tree labelled by position, checking that its points are points in
-// position order. The first call relabels, in one pass over the slots; the relabelled tree
-// shares the coordinates and boxes and has its own indices and largest indices.
-func (t *Tree) positions(points []float64, d int) *flatTree {
+// position order. The first call relabels, in one pass over the slots in chunks on up to
+// workers goroutines (the reads of the points are random: at 10⁶ points one goroutine took
+// 37–48 ms); the relabelled tree shares the coordinates and boxes and has its own indices and
+// largest indices.
+func (t *Tree) positions(points []float64, d, workers int) *flatTree {
 	t.once.Do(func() {
 		if d != t.d || len(points) != t.n*d {
 			t.err = fmt.Sprintf("%d points in %d dimensions, the tree's ordering has %d in %d", len(points)/max(d, 1), d, t.n, t.d)
 			return
 		}
+		chunks := (t.n + relabelChunk - 1) / relabelChunk
 		position := make([]int32, t.n)
-		for p, i := range t.order {
-			position[i] = int32(p)
-		}
+		forEachChunk(chunks, workers, func(c int) {
+			for p := c * relabelChunk; p < min(t.n, (c+1)*relabelChunk); p++ {
+				position[t.order[p]] = int32(p)
+			}
+		})
 		f := t.flat
 		index := make([]int32, len(f.index))
-		for s, i := range f.index {
-			p := position[i]
-			for k := range d {
-				if f.coords[s*d+k] != points[int(p)*d+k] {
-					t.err = fmt.Sprintf("point %d (position %d) differs from the ordering's", i, p)
-					return
+		// bad[c] is 1 + the first slot of chunk c whose coordinates differ, or 0.
+		bad := make([]int, chunks)
+		forEachChunk(chunks, workers, func(c int) {
+			for s := c * relabelChunk; s < min(t.n, (c+1)*relabelChunk); s++ {
+				p := position[f.index[s]]
+				for k := range d {
+					if f.coords[s*d+k] != points[int(p)*d+k] {
+						bad[c] = s + 1
+						return
+					}
 				}
+				index[s] = p
 			}
-			index[s] = p
+		})
+		for _, b := range bad {
+			if b > 0 {
+				i := f.index[b-1]
+				t.err = fmt.Sprintf("point %d (position %d) differs from the ordering's", i, position[i])
+				return
+			}
 		}
 		r := &flatTree{d: d, coords: f.coords, index: index, nodes: make([]flatNode, len(f.nodes)), boxes: f.boxes}
 		copy(r.nodes, f.nodes)
@@ -72,10 +92,7 @@ func (t *Tree) positions(points []float64, d int) *flatTree {
 		for b := len(r.nodes) - 1; b >= 0; b-- {
 			node := &r.nodes[b]
 			if node.left < 0 {
-				node.maxIndex = index[node.start]
-				for _, i := range index[node.start+1 : node.end] {
-					node.maxIndex = max(node.maxIndex, i)
-				}
+				node.maxIndex = slices.Max(index[node.start:node.end])
 			} else {
 				node.maxIndex = max(r.nodes[node.left].maxIndex, r.nodes[node.right].maxIndex)
 			}

@@ -76,7 +76,7 @@ func TestTreeRelabelledByPosition(t *testing.T) {
 			name := fmt.Sprintf("d=%d/set=%s", d, set.name)
 			ord, tree := Settings{Workers: 2}.ReverseMaximinTree(set.points, d, facePoints(rng, 5, d))
 			x := permutePoints(set.points, d, ord.Order)
-			r := tree.positions(x, d)
+			r := tree.positions(x, d, 2)
 			if !slices.Equal(slices.Sorted(slices.Values(r.index)), int32Range(len(ord.Order))) {
 				t.Fatalf("%s: the relabelled tree does not hold every position once", name)
 			}
@@ -86,7 +86,7 @@ func TestTreeRelabelledByPosition(t *testing.T) {
 				}
 			}
 			checkFlatTree(t, name, r, r.index)
-			if r2 := tree.positions(x, d); r2 != r {
+			if r2 := tree.positions(x, d, 2); r2 != r {
 				t.Fatalf("%s: a second call relabelled again", name)
 			}
 		}
@@ -129,6 +129,31 @@ func TestWithTreeRefusesOtherPoints(t *testing.T) {
 			}()
 			Settings{}.WithTree(tree).NearestNeighbors(x, c.d, 5)
 		}()
+	}
+	// Past one chunk of slots, on one and on two workers, the refusal names the same point, one
+	// of those changed.
+	big := uniformPoints(rng, 3*relabelChunk, 2)
+	var messages []string
+	for _, workers := range []int{1, 2} {
+		s := Settings{Workers: workers}
+		ord, tree := s.ReverseMaximinTree(big, 2, nil)
+		x := permutePoints(big, 2, ord.Order)
+		changed := []int{ord.Order[5], ord.Order[len(ord.Order)-9]}
+		x[2*5] += 1e-3
+		x[2*(len(ord.Order)-9)+1] -= 1e-3
+		func() {
+			defer func() {
+				r, _ := recover().(string)
+				if !strings.Contains(r, fmt.Sprintf("point %d ", changed[0])) && !strings.Contains(r, fmt.Sprintf("point %d ", changed[1])) {
+					t.Errorf("workers=%d: recovered %q, want a refusal naming point %d or %d", workers, r, changed[0], changed[1])
+				}
+				messages = append(messages, r)
+			}()
+			s.WithTree(tree).Radius(x, 2, ord.LengthScale, 2)
+		}()
+	}
+	if messages[0] != messages[1] {
+		t.Errorf("the refusal depends on the worker count: %q and %q", messages[0], messages[1])
 	}
 	// The same tree keeps refusing after the first refusal.
 	ord, tree := orderWithTree(points, 2)
