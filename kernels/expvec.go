@@ -3,39 +3,52 @@ package kernels
 import "math"
 
 // expNegatives sets dst[i] = e^(−src[i]) for every i < len(src); len(dst) must be at least
-// len(src). It is the kernels' exponential for whole rows: on amd64 an SSE2 routine
-// (expvec_amd64.s) computes two entries per step, bit for bit as expNegativeScalar, the
-// definition, which also serves the odd last entry, other architectures, and every src[i]
-// outside [0, 708] (where the routine's range reduction does not hold).
+// len(src). It is the kernels' exponential for whole rows: on amd64 an AVX2 routine
+// (expvec_amd64.s) computes four entries per step where the processor has AVX2, and an SSE2
+// routine two, both bit for bit as expNegativeScalar, the definition, which also serves the
+// last odd entry, other architectures, and every src[i] outside [0, 708] (where the
+// routines' range reduction does not hold).
 func expNegatives(dst, src []float64) {
 	dst = dst[:len(src)]
-	pairs := 0
+	vector := 0
+	if haveAVX2Rows {
+		if quads := len(src) / 4; quads > 0 {
+			expNegativeQuads(&dst[0], &src[0], quads)
+			vector = 4 * quads
+		}
+	}
 	if haveSSE2Rows {
-		pairs = len(src) / 2
-		if pairs > 0 {
-			expNegativePairs(&dst[0], &src[0], pairs)
+		if pairs := (len(src) - vector) / 2; pairs > 0 {
+			expNegativePairs(&dst[vector], &src[vector], pairs)
+			vector += 2 * pairs
 		}
 	}
 	for i, s := range src {
-		if i >= 2*pairs || !(s >= 0 && s <= 708) {
+		if i >= vector || !(s >= 0 && s <= 708) {
 			dst[i] = expNegativeScalar(s)
 		}
 	}
 }
 
-// sqrtScaled sets dst[i] = √(c·src[i]) for every i < len(src), two entries per SSE2
-// instruction on amd64 (the same bits as math.Sqrt(c * src[i])); len(dst) must be at least
-// len(src). dst may be src.
+// sqrtScaled sets dst[i] = √(c·src[i]) for every i < len(src), four entries per AVX2
+// instruction or two per SSE2 one on amd64 (the same bits as math.Sqrt(c * src[i])); len(dst)
+// must be at least len(src). dst may be src.
 func sqrtScaled(dst, src []float64, c float64) {
 	dst = dst[:len(src)]
-	pairs := 0
-	if haveSSE2Rows {
-		pairs = len(src) / 2
-		if pairs > 0 {
-			sqrtScaledPairs(&dst[0], &src[0], pairs, c)
+	vector := 0
+	if haveAVX2Rows {
+		if quads := len(src) / 4; quads > 0 {
+			sqrtScaledQuads(&dst[0], &src[0], quads, c)
+			vector = 4 * quads
 		}
 	}
-	for i := 2 * pairs; i < len(src); i++ {
+	if haveSSE2Rows {
+		if pairs := (len(src) - vector) / 2; pairs > 0 {
+			sqrtScaledPairs(&dst[vector], &src[vector], pairs, c)
+			vector += 2 * pairs
+		}
+	}
+	for i := vector; i < len(src); i++ {
 		dst[i] = math.Sqrt(c * src[i])
 	}
 }

@@ -6,6 +6,26 @@ package kernels
 // portable Go code only.
 const haveSSE2Rows = true
 
+// haveAVX2Rows reports whether the AVX2 routines (four entries per instruction) may run: set
+// from CPUID at start-up, and by tests to compare them with the SSE2 ones.
+var haveAVX2Rows = cpuHasAVX2()
+
+// cpuHasAVX2 reports whether the processor and operating system support AVX2. Implemented in
+// expvec_amd64.s.
+func cpuHasAVX2() bool
+
+// expNegativeQuads is expNegativePairs for i < 4·quads, with AVX2. Implemented in
+// expvec_amd64.s.
+//
+//go:noescape
+func expNegativeQuads(dst, src *float64, quads int)
+
+// sqrtScaledQuads is sqrtScaledPairs for i < 4·quads, with AVX2. Implemented in
+// expvec_amd64.s.
+//
+//go:noescape
+func sqrtScaledQuads(dst, src *float64, quads int, c float64)
+
 // expNegativePairs sets dst[i] = e^(−src[i]) for i < 2·pairs, bit for bit as
 // expNegativeScalar, for src[i] in [0, 708]; other entries get unspecified values (the
 // caller recomputes them). Implemented in expvec_amd64.s.

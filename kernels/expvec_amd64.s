@@ -117,6 +117,158 @@ sqrtloop:
 sqrtdone:
 	RET
 
+// func cpuHasAVX2() bool
+//
+// Reports whether the processor has AVX2 and the operating system saves the YMM registers:
+// CPUID leaf 1 ECX bits 27 (OSXSAVE) and 28 (AVX), XCR0 bits 1 and 2 (XMM and YMM state, read
+// by XGETBV), CPUID leaf 7 sub-leaf 0 EBX bit 5 (AVX2); Intel 64 and IA-32 Architectures
+// Software Developer's Manual, vol. 1, §14.7.1 (the detection sequence for AVX2).
+TEXT ·cpuHasAVX2(SB), NOSPLIT, $0-1
+	MOVL $1, AX
+	MOVL $0, CX
+	CPUID
+	MOVL CX, R8
+	ANDL $0x18000000, R8
+	CMPL R8, $0x18000000
+	JNE  no
+	MOVL $0, CX
+	XGETBV
+	ANDL $6, AX
+	CMPL AX, $6
+	JNE  no
+	MOVL $7, AX
+	MOVL $0, CX
+	CPUID
+	ANDL $0x20, BX
+	JZ   no
+	MOVB $1, ret+0(FP)
+	RET
+
+no:
+	MOVB $0, ret+0(FP)
+	RET
+
+// func expNegativeQuads(dst, src *float64, quads int)
+//
+// dst[i] = e^(−src[i]) for i < 4·quads, four entries per step in AVX2: the SSE2 routine of
+// expvec_amd64.s on 256-bit registers, operation for operation (no fused multiply-adds), so
+// the bits are those of expNegativeScalar. Valid for src[i] in [0, 708].
+TEXT ·expNegativeQuads(SB), NOSPLIT, $0-24
+	MOVQ dst+0(FP), DI
+	MOVQ src+8(FP), SI
+	MOVQ quads+16(FP), CX
+	TESTQ CX, CX
+	JLE  qdone
+	VBROADCASTSD expc_sign<>(SB), Y12
+	VBROADCASTSD expc_log2e<>(SB), Y13
+	VBROADCASTSD expc_magic<>(SB), Y14
+
+qloop:
+	VMOVUPD (SI), Y1
+	VXORPD  Y12, Y1, Y1 // x = −s
+
+	VMULPD Y13, Y1, Y2            // x·log2e
+	VADDPD Y14, Y2, Y2            // rounded = x·log2e + magic
+	VSUBPD Y14, Y2, Y3            // k = rounded − magic
+	VBROADCASTSD expc_ln2hi<>(SB), Y0
+	VMULPD Y0, Y3, Y4             // k·ln2Hi
+	VSUBPD Y4, Y1, Y5             // x − k·ln2Hi
+	VBROADCASTSD expc_ln2lo<>(SB), Y0
+	VMULPD Y0, Y3, Y3             // k·ln2Lo
+	VSUBPD Y3, Y5, Y5             // r
+
+	VMULPD Y5, Y5, Y6 // r2
+	VMULPD Y6, Y6, Y7 // r4
+	VMULPD Y7, Y7, Y8 // r8
+
+	// t1 = 1 + r
+	VBROADCASTSD expc_one<>(SB), Y9
+	VADDPD Y5, Y9, Y9
+
+	// t2 = r2·(0.5 + r·c3); s1 = t1 + t2
+	VBROADCASTSD expc_c3<>(SB), Y0
+	VMULPD Y0, Y5, Y10
+	VBROADCASTSD expc_half<>(SB), Y0
+	VADDPD Y0, Y10, Y10
+	VMULPD Y6, Y10, Y10
+	VADDPD Y10, Y9, Y9
+
+	// t3 = r4·((c4 + r·c5) + r2·(c6 + r·c7)); s2 = s1 + t3
+	VBROADCASTSD expc_c5<>(SB), Y0
+	VMULPD Y0, Y5, Y10
+	VBROADCASTSD expc_c4<>(SB), Y0
+	VADDPD Y0, Y10, Y10
+	VBROADCASTSD expc_c7<>(SB), Y0
+	VMULPD Y0, Y5, Y11
+	VBROADCASTSD expc_c6<>(SB), Y0
+	VADDPD Y0, Y11, Y11
+	VMULPD Y6, Y11, Y11
+	VADDPD Y11, Y10, Y10
+	VMULPD Y7, Y10, Y10
+	VADDPD Y10, Y9, Y9
+
+	// inner = ((c8 + r·c9) + r2·(c10 + r·c11)) + r4·(c12 + r·c13); p = s2 + r8·inner
+	VBROADCASTSD expc_c9<>(SB), Y0
+	VMULPD Y0, Y5, Y10
+	VBROADCASTSD expc_c8<>(SB), Y0
+	VADDPD Y0, Y10, Y10
+	VBROADCASTSD expc_c11<>(SB), Y0
+	VMULPD Y0, Y5, Y11
+	VBROADCASTSD expc_c10<>(SB), Y0
+	VADDPD Y0, Y11, Y11
+	VMULPD Y6, Y11, Y11
+	VADDPD Y11, Y10, Y10
+	VBROADCASTSD expc_c13<>(SB), Y0
+	VMULPD Y0, Y5, Y11
+	VBROADCASTSD expc_c12<>(SB), Y0
+	VADDPD Y0, Y11, Y11
+	VMULPD Y7, Y11, Y11
+	VADDPD Y11, Y10, Y10
+	VMULPD Y8, Y10, Y10
+	VADDPD Y10, Y9, Y9
+
+	// scale = 2ᵏ from rounded's low bits: ((bits + 1023) << 52)
+	VBROADCASTSD expc_bias<>(SB), Y0
+	VPADDQ Y0, Y2, Y2
+	VPSLLQ $52, Y2, Y2
+	VMULPD Y2, Y9, Y9
+
+	VMOVUPD Y9, (DI)
+	ADDQ    $32, SI
+	ADDQ    $32, DI
+	DECQ    CX
+	JNZ     qloop
+	VZEROUPPER
+
+qdone:
+	RET
+
+// func sqrtScaledQuads(dst, src *float64, quads int, c float64)
+//
+// dst[i] = √(c·src[i]) for i < 4·quads, four entries per VSQRTPD; both operations are
+// correctly rounded, so the bits are those of math.Sqrt(c * src[i]).
+TEXT ·sqrtScaledQuads(SB), NOSPLIT, $0-32
+	MOVQ dst+0(FP), DI
+	MOVQ src+8(FP), SI
+	MOVQ quads+16(FP), CX
+	TESTQ CX, CX
+	JLE  sqdone
+	VBROADCASTSD c+24(FP), Y1
+
+sqloop:
+	VMOVUPD (SI), Y0
+	VMULPD  Y1, Y0, Y0
+	VSQRTPD Y0, Y0
+	VMOVUPD Y0, (DI)
+	ADDQ    $32, SI
+	ADDQ    $32, DI
+	DECQ    CX
+	JNZ     sqloop
+	VZEROUPPER
+
+sqdone:
+	RET
+
 DATA expc_log2e<>+0(SB)/8, $0x3ff71547652b82fe
 DATA expc_log2e<>+8(SB)/8, $0x3ff71547652b82fe
 GLOBL expc_log2e<>(SB), RODATA|NOPTR, $16

@@ -3,6 +3,9 @@ package kernels
 import (
 	"math"
 	"math/rand/v2"
+	"os"
+	"slices"
+	"strings"
 	"testing"
 )
 
@@ -41,11 +44,50 @@ func TestExpNegativeScalarMatchesMathExp(t *testing.T) {
 	t.Logf("worst relative error %.3g (%.2f ulp)", worst, worst/0x1p-52)
 }
 
-func TestExpNegativesMatchesScalar(t *testing.T) {
-	// The row routine (SSE2 pairs on amd64) must give the bits of expNegativeScalar for
-	// every entry, including the odd last one and entries outside [0, 708].
+// withRowPaths runs f once per vector path this processor has: with the AVX2 routines off
+// (SSE2 pairs on amd64, or the portable code) and, where the processor has AVX2, on. It
+// restores the start-up setting.
+func withRowPaths(t *testing.T, f func(t *testing.T)) {
+	supported := haveAVX2Rows
+	defer func() { haveAVX2Rows = supported }()
+	paths := []bool{false}
+	if supported {
+		paths = append(paths, true)
+	}
+	for _, avx2 := range paths {
+		haveAVX2Rows = avx2
+		t.Run(map[bool]string{false: "without-avx2", true: "avx2"}[avx2], f)
+	}
+}
+
+// The processor reports AVX2 here exactly when Linux lists avx2 among its flags; a check of
+// the CPUID sequence against the kernel's own reading, where there is one.
+func TestAVX2DetectionAgreesWithLinux(t *testing.T) {
+	data, err := os.ReadFile("/proc/cpuinfo")
+	if err != nil || !haveSSE2Rows {
+		t.Skip("no /proc/cpuinfo or not amd64 with assembly")
+	}
+	var flags []string
+	for _, line := range strings.Split(string(data), "\n") {
+		if strings.HasPrefix(line, "flags") {
+			flags = strings.Fields(line)
+			break
+		}
+	}
+	if want := slices.Contains(flags, "avx2"); cpuHasAVX2() != want {
+		t.Errorf("CPUID says AVX2 = %v, /proc/cpuinfo says %v", cpuHasAVX2(), want)
+	}
+	t.Logf("AVX2 rows: %v", haveAVX2Rows)
+}
+
+func TestExpNegativesMatchesScalar(t *testing.T) { withRowPaths(t, testExpNegativesMatchesScalar) }
+
+func testExpNegativesMatchesScalar(t *testing.T) {
+	// The row routines (AVX2 quads and SSE2 pairs on amd64) must give the bits of
+	// expNegativeScalar for every entry, including the last odd ones and entries outside
+	// [0, 708].
 	rng := rand.New(rand.NewPCG(4, 4))
-	for _, n := range []int{0, 1, 2, 3, 7, 64, 1001} {
+	for _, n := range []int{0, 1, 2, 3, 4, 5, 6, 7, 8, 64, 1001, 1003} {
 		src := make([]float64, n)
 		for i := range src {
 			switch rng.IntN(8) {
@@ -86,12 +128,20 @@ func BenchmarkExpNegatives(b *testing.B) {
 		src[i] = float64(i) / 256
 	}
 	dst := make([]float64, len(src))
-	b.Run("rows", func(b *testing.B) {
-		for b.Loop() {
-			expNegatives(dst, src)
+	supported := haveAVX2Rows
+	defer func() { haveAVX2Rows = supported }()
+	for _, avx2 := range []bool{false, true} {
+		if avx2 && !supported {
+			continue
 		}
-		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(len(src)), "ns/entry")
-	})
+		haveAVX2Rows = avx2
+		b.Run(map[bool]string{false: "rows", true: "rows-avx2"}[avx2], func(b *testing.B) {
+			for b.Loop() {
+				expNegatives(dst, src)
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(len(src)), "ns/entry")
+		})
+	}
 	b.Run("scalar", func(b *testing.B) {
 		for b.Loop() {
 			for i, s := range src {
@@ -110,11 +160,13 @@ func BenchmarkExpNegatives(b *testing.B) {
 	})
 }
 
-func TestSqrtScaledMatchesMathSqrt(t *testing.T) {
-	// SQRTPD and MULPD are correctly rounded IEEE operations, as math.Sqrt and * are (the Go
-	// specification and IEEE 754), so the bits must agree for every entry and length.
+func TestSqrtScaledMatchesMathSqrt(t *testing.T) { withRowPaths(t, testSqrtScaledMatchesMathSqrt) }
+
+func testSqrtScaledMatchesMathSqrt(t *testing.T) {
+	// (V)SQRTPD and (V)MULPD are correctly rounded IEEE operations, as math.Sqrt and * are
+	// (the Go specification and IEEE 754), so the bits must agree for every entry and length.
 	rng := rand.New(rand.NewPCG(5, 5))
-	for _, n := range []int{0, 1, 2, 5, 64, 333} {
+	for _, n := range []int{0, 1, 2, 3, 4, 5, 6, 7, 64, 333} {
 		for _, c := range []float64{1, 3, 5} {
 			src := make([]float64, n)
 			for i := range src {

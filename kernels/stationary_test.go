@@ -239,30 +239,44 @@ func TestValidateAndParse(t *testing.T) {
 	}
 }
 
+// BenchmarkFillLower times FillLower per entry, with and (where the processor has AVX2)
+// without the AVX2 row routines.
 func BenchmarkFillLower(b *testing.B) {
+	supported := haveAVX2Rows
+	defer func() { haveAVX2Rows = supported }()
 	for _, family := range []Family{Matern12, Matern32, Gaussian} {
-		for _, s := range []int{40, 160} {
-			b.Run(fmt.Sprintf("%v/s=%d", family, s), func(b *testing.B) {
-				k := Stationary{Family: family, Dimension: 2, LengthScale: 0.1}
-				rng := rand.New(rand.NewPCG(1, 1))
-				x := make([]float64, 2*s)
-				for i := range x {
-					x[i] = rng.Float64()
+		for _, s := range []int{8, 40, 160} {
+			for _, avx2 := range []bool{false, true} {
+				if avx2 && !supported {
+					continue
 				}
-				idx := make([]int32, s)
-				for i := range idx {
-					idx[i] = int32(i)
-				}
-				dst := make([]float64, s*s)
-				b.ReportAllocs()
-				b.ResetTimer()
-				for b.Loop() {
-					FillLower(k, dst, s, x, idx)
-				}
-				b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(s*(s+1)/2), "ns/entry")
-			})
+				b.Run(fmt.Sprintf("%v/s=%d/avx2=%v", family, s, avx2), func(b *testing.B) {
+					haveAVX2Rows = avx2
+					benchmarkFillLower(b, family, s)
+				})
+			}
 		}
 	}
+}
+
+func benchmarkFillLower(b *testing.B, family Family, s int) {
+	k := Stationary{Family: family, Dimension: 2, LengthScale: 0.1}
+	rng := rand.New(rand.NewPCG(1, 1))
+	x := make([]float64, 2*s)
+	for i := range x {
+		x[i] = rng.Float64()
+	}
+	idx := make([]int32, s)
+	for i := range idx {
+		idx[i] = int32(i)
+	}
+	dst := make([]float64, s*s)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		FillLower(k, dst, s, x, idx)
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(s*(s+1)/2), "ns/entry")
 }
 
 func TestFillLowerLargeBlockMatchesEval(t *testing.T) {
