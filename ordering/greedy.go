@@ -168,8 +168,11 @@ func (w *greedyWork) size(c, m int) {
 //
 // Slot 0 of the workspace arrays is the target j, slots 1…live the candidates still eligible;
 // a candidate that is picked or found negligible is swapped behind them, so kernel rows and
-// downdates touch only the eligible ones. Ties in score go to the lower position explicitly,
-// so the slot order does not matter.
+// downdates touch only the eligible ones. Ties in score go to the lower position explicitly.
+// The slot order still reaches the last bits (the matrix-vector product treats rows in groups),
+// so the candidates come in knn's order, by (distance, position), which no tree or worker
+// count changes: taken in the order of a tree's heap instead, points with exact copies got
+// other patterns from two trees of the same points.
 func (g *greedySelector) column(dst []int32, j int, w *greedyWork) ([]int32, float64) {
 	k, x, m := g.kernel, g.points, g.m
 	w.size(g.c, m)

@@ -146,7 +146,7 @@ func (s Settings) NearestNeighbors(points []float64, d int, m int) *Pattern {
 			return dst
 		}
 		start := len(dst)
-		dst = trees.covering(n-1-j).knn(dst, points[j*d:(j+1)*d], m, int32(j+1), w)
+		dst = trees.covering(n-1-j).knnSet(dst, points[j*d:(j+1)*d], m, int32(j+1), w)
 		slices.Sort(dst[start:])
 		return dst
 	}

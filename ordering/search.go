@@ -19,6 +19,9 @@ type searcher interface {
 	// knn appends to dst the indices of the k indexed points with index ≥ minIndex that are
 	// nearest to x, ordered by (distance, index) ascending; fewer if fewer are accepted.
 	knn(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32
+	// knnSet appends the same indices as knn, in unspecified order, for callers that use them
+	// as a set; it may save knn's final sort.
+	knnSet(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32
 	// radius appends to dst, in unspecified order, the indices i ≥ minIndex of all indexed
 	// points with distance(x, xᵢ) ≤ r, and leaves their distances in w.distances, in the same
 	// order (w.distances[k] belongs to the k-th index appended by this call).
@@ -332,8 +335,30 @@ func boxLowerBound(low, high, x []float64) float64 {
 }
 
 func (t *flatTree) knn(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32 {
+	hd, hi := t.nearest(x, k, minIndex, w)
+	// Heap sort: repeatedly move the largest to the end.
+	for e := len(hd) - 1; e > 0; e-- {
+		hd[0], hd[e] = hd[e], hd[0]
+		hi[0], hi[e] = hi[e], hi[0]
+		neighbourDown(hd[:e], hi[:e], 0)
+	}
+	return append(dst, hi...)
+}
+
+// knnSet is knn without its final sort: the k nearest in the order of the bounded heap. The
+// nearest-neighbour pattern sorts each column by position anyway; without knn's sort its phase
+// took 1.85-2.43 s against 2.23-3.19 s at 10⁶ points, m = 30 (3 alternating runs). The greedy
+// selection keeps knn, whose order reaches its last bits (see greedySelector.column).
+func (t *flatTree) knnSet(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32 {
+	_, hi := t.nearest(x, k, minIndex, w)
+	return append(dst, hi...)
+}
+
+// nearest finds the k nearest points with index ≥ minIndex and returns their distances and
+// indices as a bounded max-heap by (distance, index), in w's heap arrays.
+func (t *flatTree) nearest(x []float64, k int, minIndex int32, w *searchWork) ([]float64, []int32) {
 	if k <= 0 || len(t.nodes) == 0 || t.nodes[0].maxIndex < minIndex {
-		return dst
+		return w.heapDist[:0], w.heapIndex[:0]
 	}
 	d := t.d
 	hd, hi := w.heapDist[:0], w.heapIndex[:0]
@@ -383,15 +408,8 @@ func (t *flatTree) knn(dst []int32, x []float64, k int, minIndex int32, w *searc
 			stack, stackBound = append(stack, near), append(stackBound, lnear)
 		}
 	}
-	// Heap sort: repeatedly move the largest to the end.
-	for e := len(hd) - 1; e > 0; e-- {
-		hd[0], hd[e] = hd[e], hd[0]
-		hi[0], hi[e] = hi[e], hi[0]
-		neighbourDown(hd[:e], hi[:e], 0)
-	}
-	dst = append(dst, hi...)
 	w.heapDist, w.heapIndex, w.stack, w.stackBound = hd, hi, stack, stackBound
-	return dst
+	return hd, hi
 }
 
 // neighbourAbove reports whether entry a orders after entry b by (distance, index): the
@@ -517,6 +535,10 @@ func (t *kyroyTree) radius(dst []int32, x []float64, r float64, minIndex int32, 
 		}
 	}
 	return dst
+}
+
+func (t *kyroyTree) knnSet(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32 {
+	return t.knn(dst, x, k, minIndex, w)
 }
 
 func (t *kyroyTree) knn(dst []int32, x []float64, k int, minIndex int32, w *searchWork) []int32 {

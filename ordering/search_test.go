@@ -153,6 +153,17 @@ func TestSearcherAgainstBruteForce(t *testing.T) {
 						if !slices.Equal(got, want) {
 							t.Errorf("%s: knn = %v, want %v", name, got, want)
 						}
+						// knnSet: the same indices in any order.
+						set := tree.knnSet([]int32{-7}, x, k, int32(minIndex), &w)
+						if set[0] != -7 {
+							t.Fatalf("%s: knnSet overwrote dst", name)
+						}
+						set = set[1:]
+						slices.Sort(set)
+						sorted := slices.Sorted(slices.Values(want))
+						if !slices.Equal(set, sorted) {
+							t.Errorf("%s: knnSet = %v, want the set %v", name, set, sorted)
+						}
 					}
 					// Radii: 0 (duplicates only), lattice spacings 1 and √2 (exact ties), and
 					// distances to points of the set (ties at the boundary of the ball).

@@ -23,7 +23,8 @@ type Tree struct {
 }
 
 // ReverseMaximinTree is ReverseMaximin that also returns the kd-tree it searched. The tree is
-// nil when the ordering used no such tree.
+// nil when the ordering used no such tree. It refers to the ordering's Order until its first
+// use by a pattern builder, which relabels it by Order; change Order only after that.
 func (s Settings) ReverseMaximinTree(points []float64, d int, boundary []float64) (Ordering, *Tree) {
 	ord, flat := s.reverseMaximin(points, d, boundary)
 	if flat == nil {
