@@ -44,17 +44,21 @@ func TestExpNegativeScalarMatchesMathExp(t *testing.T) {
 	t.Logf("worst relative error %.3g (%.2f ulp)", worst, worst/0x1p-52)
 }
 
-// withRowPaths runs f once per vector path this processor has: with the AVX2 routines off
-// (SSE2 pairs on amd64, or the portable code) and, where the processor has AVX2, on. It
-// restores the start-up setting.
-func withRowPaths(t *testing.T, f func(t *testing.T)) {
+// rowPaths returns the vector paths this processor has: the AVX2 routines off (SSE2 pairs
+// on amd64, or the portable code) and, where the processor has AVX2, on. The caller sets
+// haveAVX2Rows to each in turn; the start-up setting is restored when tb finishes.
+func rowPaths(tb testing.TB) []bool {
 	supported := haveAVX2Rows
-	defer func() { haveAVX2Rows = supported }()
-	paths := []bool{false}
+	tb.Cleanup(func() { haveAVX2Rows = supported })
 	if supported {
-		paths = append(paths, true)
+		return []bool{false, true}
 	}
-	for _, avx2 := range paths {
+	return []bool{false}
+}
+
+// withRowPaths runs f once per vector path (rowPaths).
+func withRowPaths(t *testing.T, f func(t *testing.T)) {
+	for _, avx2 := range rowPaths(t) {
 		haveAVX2Rows = avx2
 		t.Run(map[bool]string{false: "without-avx2", true: "avx2"}[avx2], f)
 	}
@@ -128,12 +132,7 @@ func BenchmarkExpNegatives(b *testing.B) {
 		src[i] = float64(i) / 256
 	}
 	dst := make([]float64, len(src))
-	supported := haveAVX2Rows
-	defer func() { haveAVX2Rows = supported }()
-	for _, avx2 := range []bool{false, true} {
-		if avx2 && !supported {
-			continue
-		}
+	for _, avx2 := range rowPaths(b) {
 		haveAVX2Rows = avx2
 		b.Run(map[bool]string{false: "rows", true: "rows-avx2"}[avx2], func(b *testing.B) {
 			for b.Loop() {

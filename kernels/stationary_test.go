@@ -242,14 +242,10 @@ func TestValidateAndParse(t *testing.T) {
 // BenchmarkFillLower times FillLower per entry, with and (where the processor has AVX2)
 // without the AVX2 row routines.
 func BenchmarkFillLower(b *testing.B) {
-	supported := haveAVX2Rows
-	defer func() { haveAVX2Rows = supported }()
+	paths := rowPaths(b)
 	for _, family := range []Family{Matern12, Matern32, Gaussian} {
 		for _, s := range []int{8, 40, 160} {
-			for _, avx2 := range []bool{false, true} {
-				if avx2 && !supported {
-					continue
-				}
+			for _, avx2 := range paths {
 				b.Run(fmt.Sprintf("%v/s=%d/avx2=%v", family, s, avx2), func(b *testing.B) {
 					haveAVX2Rows = avx2
 					benchmarkFillLower(b, family, s)

@@ -28,12 +28,7 @@ func TestParallelReverseMaximinAgainstBruteForce(t *testing.T) {
 		for _, d := range []int{1, 2, 3} {
 			rng := rand.New(rand.NewPCG(3, 3))
 			sets := testPointSets(n, d)
-			dup := uniformPoints(rng, n/2, d)
-			for range n / 4 {
-				i := rng.IntN(n / 2)
-				dup = append(dup, dup[i*d:(i+1)*d]...)
-			}
-			sets = append(sets, pointSet{"copies", d, dup})
+			sets = append(sets, copiesPointSet(rng, n, d))
 			for _, set := range sets {
 				for _, boundary := range [][]float64{nil, facePoints(rng, 10*d, d)} {
 					want := bruteReverseMaximin(set.points, d, boundary)

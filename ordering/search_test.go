@@ -80,6 +80,17 @@ func testPointSets(n, d int) []pointSet {
 	}
 }
 
+// copiesPointSet returns n/2 uniform points in d dimensions followed by n/4 exact copies of
+// randomly drawn ones (some copied several times): zero distances everywhere.
+func copiesPointSet(rng *rand.Rand, n, d int) pointSet {
+	p := uniformPoints(rng, n/2, d)
+	for range n / 4 {
+		i := rng.IntN(n / 2)
+		p = append(p, p[i*d:(i+1)*d]...)
+	}
+	return pointSet{"copies", d, p}
+}
+
 // bruteKNN is the O(n·k) definition of searcher.knn over indices [lo, hi): scan every
 // accepted point, keep the k best by (distance, index) in a sorted list.
 func bruteKNN(points []float64, d, lo, hi int, x []float64, k int, minIndex int) []int32 {

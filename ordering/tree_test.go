@@ -25,12 +25,7 @@ func TestWithTreeGivesThePatterns(t *testing.T) {
 	for _, d := range []int{1, 2, 3} {
 		rng := rand.New(rand.NewPCG(7, 7))
 		sets := testPointSets(n, d)
-		copies := uniformPoints(rng, n/2, d)
-		for range n / 4 {
-			i := rng.IntN(n / 2)
-			copies = append(copies, copies[i*d:(i+1)*d]...)
-		}
-		sets = append(sets, pointSet{"copies", d, copies})
+		sets = append(sets, copiesPointSet(rng, n, d))
 		k := kernels.Stationary{Family: kernels.Matern32, Dimension: d, LengthScale: 0.2, Nugget: 1e-6}
 		for _, set := range sets {
 			for _, boundary := range [][]float64{nil, facePoints(rng, 10*d, d)} {
