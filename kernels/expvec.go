@@ -10,11 +10,15 @@ import "math"
 // routines' range reduction does not hold).
 func expNegatives(dst, src []float64) {
 	dst = dst[:len(src)]
-	vector := 0
+	// Entries below vector were computed by a vector routine, those below checked were
+	// also found in its range by it; the rest are checked here.
+	vector, checked := 0, 0
 	if haveAVX2Rows {
 		if quads := len(src) / 4; quads > 0 {
-			expNegativeQuads(&dst[0], &src[0], quads)
 			vector = 4 * quads
+			if expNegativeQuads(&dst[0], &src[0], quads) {
+				checked = vector
+			}
 		}
 	}
 	if haveSSE2Rows {
@@ -23,8 +27,8 @@ func expNegatives(dst, src []float64) {
 			vector += 2 * pairs
 		}
 	}
-	for i, s := range src {
-		if i >= vector || !(s >= 0 && s <= 708) {
+	for i := checked; i < len(src); i++ {
+		if s := src[i]; i >= vector || !(s >= 0 && s <= 708) {
 			dst[i] = expNegativeScalar(s)
 		}
 	}

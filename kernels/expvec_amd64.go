@@ -14,11 +14,12 @@ var haveAVX2Rows = cpuHasAVX2()
 // expvec_amd64.s.
 func cpuHasAVX2() bool
 
-// expNegativeQuads is expNegativePairs for i < 4·quads, with AVX2. Implemented in
-// expvec_amd64.s.
+// expNegativeQuads is expNegativePairs for i < 4·quads, with AVX2, and reports whether every
+// src[i] was in [0, 708] (if so, every dst[i] is right and the caller need not look at them
+// again). Implemented in expvec_amd64.s.
 //
 //go:noescape
-func expNegativeQuads(dst, src *float64, quads int)
+func expNegativeQuads(dst, src *float64, quads int) (inRange bool)
 
 // sqrtScaledQuads is sqrtScaledPairs for i < 4·quads, with AVX2. Implemented in
 // expvec_amd64.s.

@@ -148,23 +148,33 @@ no:
 	MOVB $0, ret+0(FP)
 	RET
 
-// func expNegativeQuads(dst, src *float64, quads int)
+// func expNegativeQuads(dst, src *float64, quads int) (inRange bool)
 //
 // dst[i] = e^(−src[i]) for i < 4·quads, four entries per step in AVX2: the SSE2 routine of
 // expvec_amd64.s on 256-bit registers, operation for operation (no fused multiply-adds), so
-// the bits are those of expNegativeScalar. Valid for src[i] in [0, 708].
-TEXT ·expNegativeQuads(SB), NOSPLIT, $0-24
+// the bits are those of expNegativeScalar. Valid for src[i] in [0, 708]; inRange reports
+// whether every src[i] was (ordered comparisons, so a NaN is out of range).
+TEXT ·expNegativeQuads(SB), NOSPLIT, $0-25
 	MOVQ dst+0(FP), DI
 	MOVQ src+8(FP), SI
 	MOVQ quads+16(FP), CX
+	MOVB $1, inRange+24(FP)
 	TESTQ CX, CX
 	JLE  qdone
 	VBROADCASTSD expc_sign<>(SB), Y12
 	VBROADCASTSD expc_log2e<>(SB), Y13
 	VBROADCASTSD expc_magic<>(SB), Y14
+	VPCMPEQQ     Y15, Y15, Y15 // all lanes in range so far
 
 qloop:
 	VMOVUPD (SI), Y1
+	// Range check: Y15 &= (s ≥ 0) & (s ≤ 708), false for NaN (predicates GE_OQ, LE_OQ).
+	VXORPD  Y0, Y0, Y0
+	VCMPPD  $0x1d, Y0, Y1, Y10
+	VBROADCASTSD expc_max<>(SB), Y0
+	VCMPPD  $0x12, Y0, Y1, Y11
+	VANDPD  Y11, Y10, Y10
+	VANDPD  Y10, Y15, Y15
 	VXORPD  Y12, Y1, Y1 // x = −s
 
 	VMULPD Y13, Y1, Y2            // x·log2e
@@ -238,7 +248,11 @@ qloop:
 	ADDQ    $32, DI
 	DECQ    CX
 	JNZ     qloop
+	VMOVMSKPD Y15, AX
 	VZEROUPPER
+	CMPQ    AX, $15
+	JEQ     qdone
+	MOVB    $0, inRange+24(FP)
 
 qdone:
 	RET
@@ -268,6 +282,10 @@ sqloop:
 
 sqdone:
 	RET
+
+// 708, the top of the range the routines' reduction covers (expNegativeScalar's bound).
+DATA expc_max<>+0(SB)/8, $0x4086200000000000
+GLOBL expc_max<>(SB), RODATA|NOPTR, $8
 
 DATA expc_log2e<>+0(SB)/8, $0x3ff71547652b82fe
 DATA expc_log2e<>+8(SB)/8, $0x3ff71547652b82fe

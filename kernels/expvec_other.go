@@ -6,7 +6,9 @@ const haveSSE2Rows = false
 
 var haveAVX2Rows = false
 
-func expNegativeQuads(dst, src *float64, quads int) { panic("kernels: no vector exponential") }
+func expNegativeQuads(dst, src *float64, quads int) bool {
+	panic("kernels: no vector exponential")
+}
 
 func sqrtScaledQuads(dst, src *float64, quads int, c float64) {
 	panic("kernels: no vector square root")

@@ -86,6 +86,58 @@ func TestAVX2DetectionAgreesWithLinux(t *testing.T) {
 
 func TestExpNegativesMatchesScalar(t *testing.T) { withRowPaths(t, testExpNegativesMatchesScalar) }
 
+func TestExpNegativesSingleOutOfRange(t *testing.T) {
+	withRowPaths(t, testExpNegativesSingleOutOfRange)
+}
+
+// One entry outside [0, 708] in a row of in-range ones, at every position of rows of 1 to 13:
+// the vector routines must notice it alone (each kind of out-of-range value on its own), and
+// the row must still have expNegativeScalar's bits everywhere.
+func testExpNegativesSingleOutOfRange(t *testing.T) {
+	for _, bad := range []float64{708.5, 750, math.Inf(1), -1, math.Copysign(1e-300, -1), math.Inf(-1), math.NaN()} {
+		for n := 1; n <= 13; n++ {
+			for at := range n {
+				src := make([]float64, n)
+				for i := range src {
+					src[i] = 0.37 * float64(i+1)
+				}
+				src[at] = bad
+				dst := make([]float64, n)
+				expNegatives(dst, src)
+				for i, s := range src {
+					want := expNegativeScalar(s)
+					if math.Float64bits(dst[i]) != math.Float64bits(want) && !(math.IsNaN(dst[i]) && math.IsNaN(want)) {
+						t.Fatalf("bad %v at %d of %d: e^−%v = %v, scalar %v", bad, at, n, s, dst[i], want)
+					}
+				}
+			}
+		}
+	}
+}
+
+// The AVX2 routine reports a row of in-range entries as such (0, the smallest subnormal, 708
+// itself and values between), so the common case skips the second pass, and reports each kind
+// of out-of-range entry (above 708, negative, infinite, NaN) in every lane.
+func TestExpNegativeQuadsReportsRange(t *testing.T) {
+	if !haveAVX2Rows {
+		t.Skip("no AVX2 routine on this machine")
+	}
+	in := []float64{0, math.Copysign(0, -1), 5e-324, 1, 707.99, 708, 3.5, 0.25}
+	dst := make([]float64, len(in))
+	if !expNegativeQuads(&dst[0], &in[0], len(in)/4) {
+		t.Errorf("in-range row %v reported out of range", in)
+	}
+	for _, bad := range []float64{708.0000000000001, -5e-324, math.Inf(1), math.Inf(-1), math.NaN()} {
+		for lane := range len(in) {
+			src := slices.Clone(in)
+			src[lane] = bad
+			if expNegativeQuads(&dst[0], &src[0], len(src)/4) {
+				t.Errorf("%v in lane %d not reported", bad, lane)
+			}
+		}
+	}
+}
+
 func testExpNegativesMatchesScalar(t *testing.T) {
 	// The row routines (AVX2 quads and SSE2 pairs on amd64) must give the bits of
 	// expNegativeScalar for every entry, including the last odd ones and entries outside
