@@ -334,6 +334,10 @@ func (m *tournament) update(b, start, end int32, x []float64, picked int32, with
 	}
 	if node.right < 0 {
 		// Lower the leaf's distances and find its best point in one pass, as refresh would.
+		// The square root is taken only where the squared distance can be within min(v,
+		// within) (pruneBound): at 10⁶ uniform points a pick scans 64 points on average and
+		// lowers 9. Serial ReverseMaximin at 10⁶ took 3.12 s this way against 3.42 s with a
+		// root per point (medians of 4 alternating runs).
 		t := m.t
 		d := t.d
 		index := t.index
@@ -341,9 +345,11 @@ func (m *tournament) update(b, start, end int32, x []float64, picked int32, with
 		for s := start; s < end; s++ {
 			v := m.dist[s]
 			if v > 0 {
-				if dist := distance(x, t.coords[int(s)*d:int(s+1)*d]); dist < v && dist < within {
-					v = dist
-					m.dist[s] = v
+				if sq := squaredDistance(x, t.coords[int(s)*d:int(s+1)*d]); sq <= pruneBound(min(v, within)) {
+					if dist := math.Sqrt(sq); dist < v && dist < within {
+						v = dist
+						m.dist[s] = v
+					}
 				}
 			}
 			if beats(v, s, best, slot, index) {

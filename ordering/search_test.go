@@ -376,3 +376,35 @@ func TestFlatTreeSubset(t *testing.T) {
 		}
 	}
 }
+
+// pruneBound(r) must admit every squared distance s whose computed root is ≤ r: the trees
+// prune boxes with it and the tournament skips roots with it. math.Sqrt is correctly rounded
+// (IEEE 754-2008 §5.4.1 lists squareRoot among its correctly rounded operations; section
+// number from memory), so the property is checked exactly on the floats nearest r², where it is
+// tightest, for r over the range of magnitudes, including subnormal squares. The plain r·r
+// fails it: for some r the float just above fl(r·r) still has root r.
+func TestPruneBoundAdmitsEveryRootWithin(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	plainFails := 0
+	for range 20000 {
+		r := math.Pow(10, -160+310*rng.Float64()) * (1 + rng.Float64())
+		s := r * r
+		for range 8 {
+			s = math.Nextafter(s, 0)
+		}
+		for range 16 {
+			if math.Sqrt(s) <= r {
+				if s > pruneBound(r) {
+					t.Fatalf("r = %v: √%v = %v ≤ r but %v > pruneBound(r) = %v", r, s, math.Sqrt(s), s, pruneBound(r))
+				}
+				if s > r*r {
+					plainFails++
+				}
+			}
+			s = math.Nextafter(s, math.Inf(1))
+		}
+	}
+	if plainFails == 0 {
+		t.Error("r·r admitted every root ≤ r: the check above never reaches the slack it tests")
+	}
+}
