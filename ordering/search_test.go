@@ -156,7 +156,7 @@ func TestSearcherAgainstBruteForce(t *testing.T) {
 						x[0] += 0.5 * rng.Float64()
 					}
 					minIndex := []int{0, lo, n / 2, n - 1, n}[q%5]
-					for _, k := range []int{1, 5, 30, n + 1} {
+					for _, k := range []int{1, 5, 30, 80, n + 1} {
 						name := fmt.Sprintf("search=%v/d=%d/set=%s/query=%d/minIndex=%d/k=%d", kind, d, set.name, q, minIndex, k)
 						got := tree.knn(nil, x, k, int32(minIndex), &w)
 						want := bruteKNN(set.points, d, lo, hi, x, k, minIndex)
@@ -188,6 +188,103 @@ func TestSearcherAgainstBruteForce(t *testing.T) {
 							t.Errorf("%s: radius = %v, want %v", name, got, want)
 						}
 					}
+				}
+			}
+		}
+	}
+}
+
+// From k = knnGuessFrom, knn and knnSet answer from a radius query when a ball around the
+// last query's k-th distance holds k points (nearestWithin enlarges a ball that falls short),
+// and from the bounded heap otherwise, as for the first query; both must give the brute-force
+// k nearest. Queries run through the tree's slots in order, as the pattern builders issue
+// them, on uniform, clustered, lattice (exact ties) and copied (zero distances) points, with
+// one workspace throughout. The test also asserts that first guesses both held and fell short,
+// mostly held, and that no radius query ran below knnGuessFrom.
+func TestKNNByRadiusGuess(t *testing.T) {
+	rng := rand.New(rand.NewPCG(2, 2))
+	const n, d = 3000, 2
+	sets := append(testPointSets(n, d), copiesPointSet(rng, n, d))
+	for _, set := range sets {
+		points := set.points
+		m := len(points) / d
+		tree := newFlatTree(points, d, 0, m, 1)
+		for _, k := range []int{knnGuessFrom - 1, knnGuessFrom, 80, 160} {
+			var w searchWork
+			held, short := 0, 0
+			for q, slot := range tree.index {
+				if q%7 != 0 {
+					continue
+				}
+				x := points[int(slot)*d : int(slot+1)*d]
+				minIndex := int32(rng.IntN(m / 2))
+				name := fmt.Sprintf("set=%s/k=%d/query=%d", set.name, k, q)
+				if w.kthDistance > 0 && len(tree.radius(nil, x, w.kthDistance*knnGuessSlack, minIndex, &searchWork{})) >= k {
+					held++
+				} else {
+					short++
+				}
+				want := bruteKNN(points, d, 0, m, x, k, int(minIndex))
+				kth := w.kthDistance
+				if got := tree.knn(nil, x, k, minIndex, &w); !slices.Equal(got, want) {
+					t.Fatalf("%s: knn = %v, want %v", name, got, want)
+				}
+				w.kthDistance = kth
+				got := tree.knnSet(nil, x, k, minIndex, &w)
+				slices.Sort(got)
+				if sorted := slices.Sorted(slices.Values(want)); !slices.Equal(got, sorted) {
+					t.Fatalf("%s: knnSet = %v, want the set %v", name, got, sorted)
+				}
+			}
+			if k < knnGuessFrom {
+				if w.found != nil {
+					t.Errorf("set=%s/k=%d: a radius query ran below knnGuessFrom = %d", set.name, k, knnGuessFrom)
+				}
+			} else if short == 0 || held < short {
+				t.Errorf("set=%s/k=%d: the first guess held k points for %d queries and fell short for %d: want both, mostly held", set.name, k, held, short)
+			}
+		}
+	}
+}
+
+// selectNeighbours and sortNeighbours against the standard library's sort (slices.SortFunc
+// with compareNeighbour, the order knn defines): sortNeighbours must give the same order, and
+// for every k selectNeighbours must leave the k smallest first, the largest of them at k−1;
+// both must keep a permutation. Distances come from few values so that ties are common.
+func TestNeighbourSelection(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 4))
+	for _, n := range []int{1, 2, 3, 5, 12, 13, 40, 168} {
+		for trial := range 20 {
+			a := make([]neighbour, n)
+			for i, v := range rng.Perm(n) {
+				a[i] = neighbour{float64(rng.IntN(1 + n/(1+trial%4))), int32(v)}
+			}
+			if trial == 0 {
+				slices.SortFunc(a, compareNeighbour) // sorted input
+			} else if trial == 1 {
+				slices.SortFunc(a, func(x, y neighbour) int { return compareNeighbour(y, x) }) // reversed
+			}
+			want := slices.Clone(a)
+			slices.SortFunc(want, compareNeighbour)
+			got := slices.Clone(a)
+			sortNeighbours(got)
+			if !slices.Equal(got, want) {
+				t.Fatalf("n=%d trial=%d: sortNeighbours gives %v, want %v", n, trial, got, want)
+			}
+			for k := 1; k <= n; k++ {
+				got := slices.Clone(a)
+				selectNeighbours(got, k)
+				if got[k-1] != want[k-1] {
+					t.Fatalf("n=%d trial=%d k=%d: selectNeighbours put %v at k−1, want %v", n, trial, k, got[k-1], want[k-1])
+				}
+				first := slices.Clone(got[:k])
+				slices.SortFunc(first, compareNeighbour)
+				if !slices.Equal(first, want[:k]) {
+					t.Fatalf("n=%d trial=%d k=%d: selectNeighbours keeps %v, want %v", n, trial, k, first, want[:k])
+				}
+				slices.SortFunc(got, compareNeighbour)
+				if !slices.Equal(got, want) {
+					t.Fatalf("n=%d trial=%d k=%d: selectNeighbours lost or duplicated entries", n, trial, k)
 				}
 			}
 		}
