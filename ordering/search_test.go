@@ -505,3 +505,37 @@ func TestPruneBoundAdmitsEveryRootWithin(t *testing.T) {
 		t.Error("r·r admitted every root ≤ r: the check above never reaches the slack it tests")
 	}
 }
+
+// A radius query starts at the deepest node on the last query's path whose box holds its
+// ball (flatTree.radiusStart). Every brute-force answer must lie in that node's slots, and on
+// queries in slot order with small balls the start must mostly be below the root (else the
+// finger does nothing). Lattice points put exact ties on the box faces.
+func TestRadiusStartHoldsEveryAnswer(t *testing.T) {
+	const n, d = 4000, 2
+	for _, set := range testPointSets(n, d) {
+		tree := newFlatTree(set.points, d, 0, n, 1)
+		var w searchWork
+		below := 0
+		for q, slot := range tree.index {
+			x := set.points[int(slot)*d : int(slot+1)*d]
+			r := []float64{0, 0.01, 0.03, 1, math.Sqrt2}[q%5]
+			b := tree.radiusStart(x, r, &w)
+			if b != 0 {
+				below++
+			}
+			node := tree.nodes[b]
+			inNode := make(map[int32]bool)
+			for s := node.start; s < node.end; s++ {
+				inNode[tree.index[s]] = true
+			}
+			for _, i := range bruteRadius(set.points, d, 0, n, x, r, 0) {
+				if !inNode[i] {
+					t.Fatalf("set=%s/query=%d/r=%g: point %d at distance %v is not below start node %d", set.name, q, r, i, plainDistance(x, set.points[int(i)*d:int(i+1)*d]), b)
+				}
+			}
+		}
+		if below < n/2 {
+			t.Errorf("set=%s: %d of %d queries started below the root, want most", set.name, below, n)
+		}
+	}
+}
