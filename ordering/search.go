@@ -375,10 +375,11 @@ func (t *flatTree) knnSet(dst []int32, x []float64, k int, minIndex int32, w *se
 }
 
 // knnGuessFrom is the least k for which knn and knnSet first try a radius query
-// (nearestWithin). Measured at 10⁵ uniform points (BenchmarkGreedy, BenchmarkNearestNeighbors,
-// 4 alternating runs each): the greedy selection's k = 80 queries took its pattern from
-// 2.19 s to 1.95 s (medians), the nearest-neighbour pattern's k = 30 queries from 0.283 s
-// to 0.294 s, so below this the bounded heap answers alone.
+// (nearestWithin). Measured with radius queries from k = 16 at 10⁵ uniform points
+// (BenchmarkGreedy, BenchmarkNearestNeighbors, 4 alternating runs each): the greedy
+// selection's k = 80 queries took its pattern from 2.19 s to 1.95 s (medians), the
+// nearest-neighbour pattern's k = 30 queries from 0.283 s to 0.294 s, so below this the
+// bounded heap answers alone.
 const knnGuessFrom = 48
 
 // knnGuessSlack is the factor by which nearestWithin enlarges the last query's k-th distance,
@@ -654,8 +655,8 @@ func (t *flatTree) radius(dst []int32, x []float64, r float64, minIndex int32, w
 // Why a point of t outside node b cannot be within r: each split sends points with the split
 // coordinate ≤ v to the left and ≥ v to the right (selectNth), so where a point q left b's
 // path at an ancestor split on coordinate k, q lies on the far side of b's box face in k
-// (q_k ≥ high_k or q_k ≤ low_k), a face farther than r from x. Within reports that with slack
-// for the rounding of x ± r and of the distance that radius computes.
+// (q_k ≥ high_k or q_k ≤ low_k), a face farther than r from x. holdsBall checks that with
+// slack for the rounding of x ± r and of the distance that radius computes.
 func (t *flatTree) radiusStart(x []float64, r float64, w *searchWork) int32 {
 	if w.fingerTree != t {
 		w.fingerTree, w.finger = t, append(w.finger[:0], 0)
