@@ -92,6 +92,7 @@ type searchWork struct {
 	// on it started (flatTree.radiusStart).
 	finger     []int32
 	fingerTree *flatTree
+	ball       []float64 // radiusStart's ball extent: lows, then highs
 }
 
 type neighbour struct {
@@ -409,8 +410,8 @@ func (t *flatTree) nearestWithin(x []float64, k int, minIndex int32, w *searchWo
 	found := t.radius(w.found[:0], x, r, minIndex, w)
 	for try := 1; len(found) < k; try++ {
 		if try == knnGuessTries {
-			w.found, w.kthDistance = found, 0
-			return nil, false
+			w.found = found
+			return nil, false // nearest answers and sets w.kthDistance
 		}
 		// Enlarge the ball so that it would hold about 1.2k points at the density seen.
 		grow := 2.0
@@ -655,18 +656,28 @@ func (t *flatTree) radius(dst []int32, x []float64, r float64, minIndex int32, w
 // Why a point of t outside node b cannot be within r: each split sends points with the split
 // coordinate ≤ v to the left and ≥ v to the right (selectNth), so where a point q left b's
 // path at an ancestor split on coordinate k, q lies on the far side of b's box face in k
-// (q_k ≥ high_k or q_k ≤ low_k), a face farther than r from x. holdsBall checks that with
-// slack for the rounding of x ± r and of the distance that radius computes.
+// (q_k ≥ high_k or q_k ≤ low_k), a face farther than r from x. The ball's extent carries slack
+// for the rounding of x ± r and of the distance that radius computes.
 func (t *flatTree) radiusStart(x []float64, r float64, w *searchWork) int32 {
 	if w.fingerTree != t {
 		w.fingerTree, w.finger = t, append(w.finger[:0], 0)
 	}
+	// The ball's extent with slack, once per query: r·10⁻⁹ for the distance's rounding (as
+	// pruneBound) and 4·2⁻⁵³·(|xₖ| + r) for the rounding of xₖ ± r, so that every point on or
+	// beyond a face of a box that holds it is at a computed distance > r from x.
+	d := t.d
+	ball := slices.Grow(w.ball[:0], 2*d)[:2*d]
+	for k, v := range x[:d] {
+		s := r + r*1e-9 + 4*0x1p-53*(math.Abs(v)+r) + 1e-300
+		ball[k], ball[d+k] = v-s, v+s
+	}
+	w.ball = ball
 	path := w.finger
-	for len(path) > 1 && !t.holdsBall(path[len(path)-1], x, r) {
+	for len(path) > 0 && !t.holdsBall(path[len(path)-1], ball) {
 		path = path[:len(path)-1]
 	}
-	if len(path) == 1 && !t.holdsBall(0, x, r) {
-		w.finger = path
+	if len(path) == 0 {
+		w.finger = append(path, 0)
 		return 0
 	}
 	for {
@@ -674,9 +685,9 @@ func (t *flatTree) radiusStart(x []float64, r float64, w *searchWork) int32 {
 		if node.left < 0 {
 			break
 		}
-		if t.holdsBall(node.left, x, r) {
+		if t.holdsBall(node.left, ball) {
 			path = append(path, node.left)
-		} else if t.holdsBall(node.right, x, r) {
+		} else if t.holdsBall(node.right, ball) {
 			path = append(path, node.right)
 		} else {
 			break
@@ -686,16 +697,13 @@ func (t *flatTree) radiusStart(x []float64, r float64, w *searchWork) int32 {
 	return path[len(path)-1]
 }
 
-// holdsBall reports whether node b's box holds the closed ball of radius r around x strictly
-// inside, with slack: r·10⁻⁹ for the distance's rounding (as pruneBound) and 4·2⁻⁵³·(|xₖ| + r)
-// for the rounding of xₖ ± r, so that every point on or beyond a face of the box is at a
-// computed distance > r from x.
-func (t *flatTree) holdsBall(b int32, x []float64, r float64) bool {
+// holdsBall reports whether node b's box holds ball (lows, then highs, as radiusStart computes
+// them) strictly inside.
+func (t *flatTree) holdsBall(b int32, ball []float64) bool {
 	d := t.d
 	box := t.boxes[2*d*int(b) : 2*d*int(b+1)]
-	for k, v := range x[:d] {
-		s := r + r*1e-9 + 4*0x1p-53*(math.Abs(v)+r) + 1e-300
-		if !(v-s > box[k] && v+s < box[d+k]) {
+	for k := range d {
+		if !(ball[k] > box[k] && ball[d+k] < box[d+k]) {
 			return false
 		}
 	}
