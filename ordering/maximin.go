@@ -3,6 +3,7 @@ package ordering
 import (
 	"fmt"
 	"math"
+	"sync/atomic"
 )
 
 // Ordering is a reverse maximin ordering.
@@ -148,8 +149,9 @@ func maximinHeapSearch(tree searcher, points []float64, d int, initial []float64
 // ascending), so the next pick is read at the root, and the update after a pick descends only
 // into nodes whose box is nearer to the pick than their best distance (a point can come closer
 // only if its new distance beats its old one, which is at most the node's best). Slots are in
-// tree order, so the updates touch memory locally. initial holds the starting distances by
-// input index, −Inf for points already picked.
+// tree order, so the updates touch memory locally. After 1/sweepAfter of the picks, sweeps
+// (tournament.finish) pick the rest. initial holds the starting distances by input index,
+// −Inf for points already picked.
 func maximinTournament(t *flatTree, initial []float64, workers int, record func(int32, float64)) {
 	if len(t.nodes) == 0 {
 		return
@@ -187,17 +189,39 @@ func maximinTournament(t *flatTree, initial []float64, workers int, record func(
 		}
 	}
 	n := int32(len(t.index))
-	for top := m.best(0); top.slot >= 0; top = m.best(0) {
+	left := m.unpicked()
+	for early := len(t.index) / sweepAfter; early > 0; early-- {
+		top := m.best(0)
+		if top.slot < 0 {
+			break
+		}
 		record(top.index, top.dist)
+		left--
 		m.dist[top.slot] = math.Inf(-1)
 		m.update(0, 0, n, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
 	}
+	mergePicks(m.finish(left, nil), record)
+}
+
+// unpicked counts the points not yet picked.
+func (m *tournament) unpicked() int {
+	k := 0
+	for _, v := range m.dist {
+		if !math.IsInf(v, -1) {
+			k++
+		}
+	}
+	return k
 }
 
 type tournament struct {
 	t     *flatTree
 	dist  []float64        // by tree slot; −Inf once picked
 	nodes []tournamentNode // by node id, as t.nodes
+	// stopAt (math.Float64bits) is the distance at or below which the regions of a parallel
+	// tournament stop and leave their points to the sweeps; −Inf until the first region has
+	// picked its share.
+	stopAt atomic.Uint64
 }
 
 // tournamentInlineDims is the most dimensions whose node boxes are copied into the tournament's

@@ -53,6 +53,7 @@ type maximinRegion struct {
 	sentLen atomic.Int64
 
 	picks []tournamentBest // the region's picks, in pick order
+	quota int              // after this many picks the region sets the tournament's stopAt
 
 	// The worker's own state: applied[o] is the number of region o's sent picks applied here,
 	// published the best last published.
@@ -118,6 +119,12 @@ func maximinRegions(t *flatTree, workers int) []int32 {
 // overall best point can always pick, so the workers never all wait. Each region picks in
 // serial order, so merging the regions' picks by the same order gives the serial sequence,
 // with the same distances.
+//
+// Once a region has picked 1/sweepAfter of its points, it sets stopAt to its best distance,
+// and every region stops when its best is at or below stopAt. The stopped regions' bests come
+// after every pick still made above stopAt, so nobody waits for them. Then every region
+// applies the picks sent to it since it stopped, the sweeps pick the rest (tournament.finish,
+// one goroutine per region), and all pick sequences are merged.
 func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 	t := m.t
 	d := t.d
@@ -131,28 +138,34 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 			picks:     make([]tournamentBest, 0, node.end-node.start),
 			applied:   make([]int64, len(roots)),
 			published: m.best(b),
+			quota:     int(node.end-node.start) / sweepAfter,
 		}
 		regions[k].publish(regions[k].published)
 	}
+	m.stopAt.Store(math.Float64bits(math.Inf(-1)))
 	runMaximinRegions(m, regions)
 
-	// Merge the regions' pick sequences.
-	next := make([]int, len(regions))
-	for {
-		best, from := tournamentBest{slot: -1}, -1
-		for k, r := range regions {
-			if next[k] < len(r.picks) {
-				if c := r.picks[next[k]]; c.before(best) {
-					best, from = c, k
+	// Apply the picks a region sent after its receiver stopped, then sweep.
+	var wg sync.WaitGroup
+	for _, r := range regions {
+		wg.Go(func() {
+			for o, other := range regions {
+				for ; other != r && r.applied[o] < other.sentLen.Load(); r.applied[o]++ {
+					p := other.sent[r.applied[o]]
+					m.update(r.root, r.start, r.end, t.coords[int(p.slot)*d:int(p.slot+1)*d], -1, p.dist)
 				}
 			}
-		}
-		if from < 0 {
-			return
-		}
-		next[from]++
-		record(best.index, best.dist)
+		})
 	}
+	wg.Wait()
+	late := m.finish(m.unpicked(), roots)
+
+	// Merge the regions' pick sequences and the sweeps'.
+	sequences := make([][]tournamentBest, 0, len(regions)+len(late))
+	for _, r := range regions {
+		sequences = append(sequences, r.picks)
+	}
+	mergePicks(append(sequences, late...), record)
 }
 
 // step is one turn of region k's worker: it applies the picks the other regions have sent,
@@ -176,7 +189,12 @@ func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
 		r.publish(q)
 		r.published = q
 	}
-	if q.slot < 0 {
+	if q.slot >= 0 && len(r.picks) >= r.quota {
+		m.stopAt.CompareAndSwap(math.Float64bits(math.Inf(-1)), math.Float64bits(q.dist))
+	}
+	if q.slot < 0 || q.dist <= math.Float64frombits(m.stopAt.Load()) {
+		// Nothing left, or the rest is the sweeps'. A region that stops publishes a best at
+		// or below stopAt, so no region picking above it waits for this one.
 		return false, false
 	}
 	x := t.coords[int(q.slot)*d : int(q.slot+1)*d]

@@ -662,15 +662,10 @@ func (t *flatTree) radiusStart(x []float64, r float64, w *searchWork) int32 {
 	if w.fingerTree != t {
 		w.fingerTree, w.finger = t, append(w.finger[:0], 0)
 	}
-	// The ball's extent with slack, once per query: r·10⁻⁹ for the distance's rounding (as
-	// pruneBound) and 4·2⁻⁵³·(|xₖ| + r) for the rounding of xₖ ± r, so that every point on or
-	// beyond a face of a box that holds it is at a computed distance > r from x.
+	// The ball's extent with slack, once per query.
 	d := t.d
 	ball := slices.Grow(w.ball[:0], 2*d)[:2*d]
-	for k, v := range x[:d] {
-		s := r + r*1e-9 + 4*0x1p-53*(math.Abs(v)+r) + 1e-300
-		ball[k], ball[d+k] = v-s, v+s
-	}
+	ballExtent(ball, x[:d], r)
 	w.ball = ball
 	path := w.finger
 	for len(path) > 0 && !t.holdsBall(path[len(path)-1], ball) {
@@ -695,6 +690,18 @@ func (t *flatTree) radiusStart(x []float64, r float64, w *searchWork) int32 {
 	}
 	w.finger = path
 	return path[len(path)-1]
+}
+
+// ballExtent sets ball (lows, then highs) to the extent of the ball of radius r around x,
+// with slack: r·10⁻⁹ for the distance's rounding (as pruneBound) and 4·2⁻⁵³·(|xₖ| + r) for the
+// rounding of xₖ ± r, so that every point on or beyond a face of a box that holds it (holdsBall)
+// is at a computed distance > r from x.
+func ballExtent(ball, x []float64, r float64) {
+	d := len(x)
+	for k, v := range x {
+		s := r + r*1e-9 + 4*0x1p-53*(math.Abs(v)+r) + 1e-300
+		ball[k], ball[d+k] = v-s, v+s
+	}
 }
 
 // holdsBall reports whether node b's box holds ball (lows, then highs, as radiusStart computes
