@@ -236,8 +236,8 @@ func (m *tournament) finish(left int, roots []int32) [][]tournamentBest {
 	return seqs
 }
 
-// refreshAll recomputes every node's best, bottom-up: the subtrees of roots (disjoint, in
-// pre-order, covering the nodes after their ancestors) concurrently, then their ancestors.
+// refreshAll recomputes every node's best, bottom-up: the subtrees of roots (disjoint; each is
+// a range of node ids, pre-order) concurrently, then the nodes outside them.
 func (m *tournament) refreshAll(roots []int32) {
 	t := m.t
 	refresh := func(lo, hi int32) {
