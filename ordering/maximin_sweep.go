@@ -79,7 +79,11 @@ func (m *tournament) sweep(root int32, late []tournamentBest, border []int32, pa
 					if k >= 0 {
 						from = path[k]
 					} else if root != 0 {
-						border = append(border, s)
+						// Blocked by a point of this subtree is blocked; only the others need
+						// the check across the subtree's faces.
+						if !m.blocked(root, x, q) {
+							border = append(border, s)
+						}
 						continue
 					}
 					if m.blocked(from, x, q) {
