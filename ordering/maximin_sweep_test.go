@@ -93,3 +93,43 @@ func TestSortPicks(t *testing.T) {
 		}
 	}
 }
+
+// Awkward point sets for the sweeps' check and their regions, against the same reference as
+// above: all points identical, two points repeated, points on a line, 1000 exponentially spaced
+// columns (distances from 1 down to 2⁻⁹⁹⁹), coordinates of 10¹⁵⁰ and 10⁻¹⁵⁰ together, and a
+// lattice; on 1, 2 and 3 workers.
+func TestSweepsOnAwkwardPoints(t *testing.T) {
+	n := 5000
+	if testing.Short() {
+		n = 2000
+	}
+	rng := rand.New(rand.NewPCG(9, 9))
+	identical, two, line, spaced := make([]float64, 2*n), make([]float64, 2*n), make([]float64, 2*n), make([]float64, 2*n)
+	for i := range n {
+		identical[2*i], identical[2*i+1] = 0.5, 0.5
+		two[2*i] = float64(i % 2)
+		u := rng.Float64()
+		line[2*i], line[2*i+1] = u, 2*u
+		spaced[2*i], spaced[2*i+1] = math.Ldexp(1, -(i%1000)), float64(i/1000)
+	}
+	scales := uniformPoints(rng, n, 2)
+	for i := range scales {
+		if i < n {
+			scales[i] *= 1e150
+		} else {
+			scales[i] *= 1e-150
+		}
+	}
+	sets := []pointSet{{"identical", 2, identical}, {"two points", 2, two}, {"line", 2, line}, {"spaced", 2, spaced}, {"scales", 2, scales}, {"lattice", 2, latticePoints(n, 2)}}
+	withParallelMaximinFrom(0, func() {
+		for _, set := range sets {
+			want := Settings{Workers: 1, search: searchKyroy}.ReverseMaximin(set.points, 2, nil)
+			for _, workers := range []int{1, 2, 3} {
+				got := Settings{Workers: workers}.ReverseMaximin(set.points, 2, nil)
+				if !slices.Equal(got.Order, want.Order) || !slices.Equal(got.LengthScale, want.LengthScale) {
+					t.Errorf("%s/workers=%d: differs from the heap search\n got %v\nwant %v", set.name, workers, head(got.Order), head(want.Order))
+				}
+			}
+		}
+	})
+}
