@@ -41,7 +41,7 @@ const sweepMinShare = 8
 // sweep visits the unpicked points below node root in slot order and picks every one that
 // passes the check, appending it to late. A point whose ball (radius its distance) no node on
 // its path at or below root holds strictly inside is left for the caller and appended to
-// border, unless root is the tree's root. Node bests are left stale: every node's best stays an
+// border, unless root is the tree's root or a point below root blocks it. Node bests are left stale: every node's best stays an
 // upper bound on the points below it, which is all that the check and update need; refresh
 // them before the tournament reads them again. Only points and nodes below root are read or
 // written, so sweeps of disjoint subtrees can run concurrently.
