@@ -188,19 +188,29 @@ func maximinTournament(t *flatTree, initial []float64, workers int, record func(
 			return
 		}
 	}
-	n := int32(len(t.index))
 	left := m.unpicked()
 	for early := len(t.index) / sweepAfter; early > 0; early-- {
-		top := m.best(0)
+		top := m.pickBest()
 		if top.slot < 0 {
 			break
 		}
 		record(top.index, top.dist)
 		left--
-		m.dist[top.slot] = math.Inf(-1)
-		m.update(0, 0, n, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
 	}
 	mergePicks(m.finish(left, nil), record)
+}
+
+// pickBest picks the tournament's best point (the root's) and returns it; slot −1 if every
+// point is picked. Node bests must be current.
+func (m *tournament) pickBest() tournamentBest {
+	top := m.best(0)
+	if top.slot >= 0 {
+		t := m.t
+		d := t.d
+		m.dist[top.slot] = math.Inf(-1)
+		m.update(0, 0, int32(len(t.index)), t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
+	}
+	return top
 }
 
 // unpicked counts the points not yet picked.

@@ -146,18 +146,7 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 	runMaximinRegions(m, regions)
 
 	// Apply the picks a region sent after its receiver stopped, then sweep.
-	var wg sync.WaitGroup
-	for _, r := range regions {
-		wg.Go(func() {
-			for o, other := range regions {
-				for ; other != r && r.applied[o] < other.sentLen.Load(); r.applied[o]++ {
-					p := other.sent[r.applied[o]]
-					m.update(r.root, r.start, r.end, t.coords[int(p.slot)*d:int(p.slot+1)*d], -1, p.dist)
-				}
-			}
-		})
-	}
-	wg.Wait()
+	forEachChunk(len(regions), len(regions), func(k int) { m.applySent(regions, k) })
 	late := m.finish(m.unpicked(), roots)
 
 	// Merge the regions' pick sequences and the sweeps'.
@@ -168,10 +157,9 @@ func (m *tournament) parallel(roots []int32, record func(int32, float64)) {
 	mergePicks(append(sequences, late...), record)
 }
 
-// step is one turn of region k's worker: it applies the picks the other regions have sent,
-// publishes its best point, and picks it if no other region can still change it. It reports
-// whether the region had a point left, and whether it picked one.
-func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
+// applySent lowers region k's distances for the picks the other regions have sent it since
+// the last call.
+func (m *tournament) applySent(regions []*maximinRegion, k int) {
 	t := m.t
 	d := t.d
 	r := regions[k]
@@ -184,6 +172,16 @@ func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
 			m.update(r.root, r.start, r.end, t.coords[int(p.slot)*d:int(p.slot+1)*d], -1, p.dist)
 		}
 	}
+}
+
+// step is one turn of region k's worker: it applies the picks the other regions have sent,
+// publishes its best point, and picks it if no other region can still change it. It reports
+// whether the region had a point left, and whether it picked one.
+func (m *tournament) step(regions []*maximinRegion, k int) (left, picked bool) {
+	t := m.t
+	d := t.d
+	r := regions[k]
+	m.applySent(regions, k)
 	q := m.best(r.root)
 	if q != r.published {
 		r.publish(q)

@@ -148,25 +148,6 @@ func (m *tournament) blocked(b int32, x []float64, q tournamentBest) bool {
 	return false
 }
 
-// startNode returns the deepest node whose box holds ball strictly inside, or the root.
-func (m *tournament) startNode(ball []float64) int32 {
-	t := m.t
-	b := int32(0)
-	for {
-		node := t.nodes[b]
-		switch {
-		case node.left < 0:
-			return b
-		case t.holdsBall(node.left, ball):
-			b = node.left
-		case t.holdsBall(node.right, ball):
-			b = node.right
-		default:
-			return b
-		}
-	}
-}
-
 // sweepStats, when not nil, is told by finish how many rounds the sweeps ran, how many points
 // they picked, how many of those left their subtree (parallel sweeps only) and how many the
 // tournament picked after them. For tests.
@@ -186,7 +167,7 @@ func (m *tournament) finish(left int, roots []int32) [][]tournamentBest {
 	paths := make([][]int32, len(roots))
 	borders := make([][]int32, len(roots))
 	var late []tournamentBest // picks of points whose ball leaves their subtree, and the rest
-	ball := make([]float64, 2*d)
+	var w searchWork
 	rounds, swept, borderPicks := 0, 0, 0
 	for left > 0 {
 		rounds++
@@ -207,8 +188,7 @@ func (m *tournament) finish(left int, roots []int32) [][]tournamentBest {
 				}
 				q := tournamentBest{v, s, t.index[s]}
 				x := t.coords[int(s)*d : int(s+1)*d]
-				ballExtent(ball, x, v)
-				if from := m.startNode(ball); !m.blocked(from, x, q) {
+				if from := t.radiusStart(x, v, &w); !m.blocked(from, x, q) {
 					late = m.pickOutOfTurn(late, from, q, x)
 					borderPicks++
 					swept++
@@ -224,13 +204,10 @@ func (m *tournament) finish(left int, roots []int32) [][]tournamentBest {
 		}
 	}
 	// The tournament for the rest.
-	n := int32(len(t.index))
 	rest := 0
-	for top := m.best(0); top.slot >= 0; top = m.best(0) {
+	for top := m.pickBest(); top.slot >= 0; top = m.pickBest() {
 		late = append(late, top)
 		rest++
-		m.dist[top.slot] = math.Inf(-1)
-		m.update(0, 0, n, t.coords[int(top.slot)*d:int(top.slot+1)*d], top.slot, top.dist)
 	}
 	if sweepStats != nil {
 		sweepStats(rounds, swept, borderPicks, rest)
